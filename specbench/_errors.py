@@ -1,0 +1,23 @@
+"""Exception and warning types shared by every layer.
+
+Messages follow one template: what is wrong (the value given), the limit it breaks,
+and how to fix it.  The widget shows the message verbatim in its status line.
+"""
+
+__all__ = ["SpecbenchError", "InputError", "SettingsError", "SpecbenchWarning"]
+
+
+class SpecbenchError(Exception):
+    """Base class of every error raised on purpose by specbench."""
+
+
+class InputError(SpecbenchError, ValueError):
+    """The data cannot be estimated as given (shape, length, non-finite samples, files)."""
+
+
+class SettingsError(SpecbenchError, ValueError):
+    """An estimator field or a settings file is invalid."""
+
+
+class SpecbenchWarning(UserWarning):
+    """Something was adjusted or is statistically doubtful; the message says what."""

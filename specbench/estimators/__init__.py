@@ -1,0 +1,28 @@
+"""Estimation core: windows, spectral and correlation estimators, bands (numpy/scipy only)."""
+
+from ._base import Estimator, estimator_classes, estimator_from_dict
+from ._params import ParamSpec
+from ._results import Correlation, Spectrum
+from .correlation import Autocorrelation, CrossCorrelation
+from .spectral import Correlogram, Multitaper, Periodogram, SpectralEstimator, Welch
+from .windows import WINDOWS, WindowInfo, get_window, window_info
+
+__all__ = [
+    "Autocorrelation",
+    "Correlation",
+    "Correlogram",
+    "CrossCorrelation",
+    "Estimator",
+    "Multitaper",
+    "ParamSpec",
+    "Periodogram",
+    "SpectralEstimator",
+    "Spectrum",
+    "WINDOWS",
+    "Welch",
+    "WindowInfo",
+    "estimator_classes",
+    "estimator_from_dict",
+    "get_window",
+    "window_info",
+]

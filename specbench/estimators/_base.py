@@ -1,0 +1,149 @@
+"""The immutable estimator base class: validation, replace, repr, dict round trip."""
+
+from __future__ import annotations
+
+import dataclasses
+from typing import Any, ClassVar
+
+from .._errors import SettingsError
+from ._params import ParamSpec, settings_error
+
+__all__ = ["Estimator", "estimator_from_dict", "estimator_classes", "SCHEMA_VERSION"]
+
+#: version of the dict / settings-file layout of an estimator
+SCHEMA_VERSION = 1
+
+_REGISTRY: dict[str, type[Estimator]] = {}
+
+
+@dataclasses.dataclass(frozen=True, kw_only=True, repr=False)
+class Estimator:
+    """Base of all estimators: frozen dataclass whose fields are its settings.
+
+    Subclasses declare fields with :func:`~specbench.estimators._params.param`; every
+    field is validated once, at construction, against its constraint, and cross-field
+    rules are checked in :meth:`_check`.  Instances never change: use :meth:`replace`.
+    """
+
+    #: short kind name used in dicts and settings files (defaults to the class name)
+    kind: ClassVar[str] = ""
+    #: one line for menus
+    title: ClassVar[str] = ""
+
+    def __init_subclass__(cls, **kwargs: Any) -> None:
+        super().__init_subclass__(**kwargs)
+        if "kind" not in cls.__dict__ or not cls.__dict__["kind"]:
+            cls.kind = cls.__name__
+        _REGISTRY[cls.kind] = cls
+
+    def __post_init__(self) -> None:
+        owner = type(self).__name__
+        for spec in self.params().values():
+            value = getattr(self, spec.name)
+            try:
+                checked = spec.constraint.check(value)
+            except ValueError as e:
+                raise settings_error(
+                    owner, spec.name, spec.constraint.describe(), value, str(e) or spec.fix
+                ) from None
+            object.__setattr__(self, spec.name, checked)
+        self._check()
+
+    def _check(self) -> None:
+        """Cross-field rules; raise :class:`SettingsError` via :meth:`_fail`."""
+
+    def _fail(self, name: str, expected: str, fix: str = "") -> None:
+        raise settings_error(type(self).__name__, name, expected, getattr(self, name), fix)
+
+    # ---------------------------------------------------------------- metadata
+    @classmethod
+    def params(cls) -> dict[str, ParamSpec]:
+        """Field name -> :class:`ParamSpec`, in declaration order."""
+        cached = cls.__dict__.get("_params_cache")
+        if cached is not None:
+            return cached
+        out = {}
+        for f in dataclasses.fields(cls):
+            if "spec" not in f.metadata:
+                continue
+            out[f.name] = ParamSpec(name=f.name, default=f.default, **f.metadata["spec"])
+        cls._params_cache = out
+        return out
+
+    # ---------------------------------------------------------------- value semantics
+    def replace(self, **changes: Any) -> Estimator:
+        """A new estimator with ``changes`` applied; this one is unchanged."""
+        unknown = set(changes) - set(self.params())
+        if unknown:
+            raise SettingsError(
+                f"{type(self).__name__} has no parameter {', '.join(sorted(map(repr, unknown)))}. "
+                f"Its parameters are: {', '.join(self.params())}."
+            )
+        return dataclasses.replace(self, **changes)
+
+    def changed_fields(self) -> dict[str, Any]:
+        """Fields whose value differs from the default."""
+        return {
+            name: getattr(self, name)
+            for name, spec in self.params().items()
+            if getattr(self, name) != spec.default
+        }
+
+    def __repr__(self) -> str:
+        args = ", ".join(f"{k}={v!r}" for k, v in self.changed_fields().items())
+        return f"{type(self).__name__}({args})"
+
+    def to_dict(self) -> dict[str, Any]:
+        """Plain, JSON-ready description: ``{"kind": ..., "fields": {...all fields...}}``."""
+        return {
+            "kind": self.kind,
+            "schema": SCHEMA_VERSION,
+            "fields": {name: _jsonable(getattr(self, name)) for name in self.params()},
+        }
+
+
+def _jsonable(v: Any) -> Any:
+    if isinstance(v, tuple):
+        return [_jsonable(x) for x in v]
+    return v
+
+
+def estimator_classes() -> dict[str, type[Estimator]]:
+    """Kind name -> estimator class, for every registered estimator."""
+    return dict(_REGISTRY)
+
+
+def estimator_from_dict(d: Any) -> Estimator:
+    """Rebuild an estimator from :meth:`Estimator.to_dict` output.
+
+    Raises :class:`SettingsError` for an unknown kind, an unknown or mistyped field, or a
+    newer schema; never returns a partial object.
+    """
+    if not isinstance(d, dict) or "kind" not in d or "fields" not in d:
+        raise SettingsError(
+            "An estimator description must be a mapping with 'kind' and 'fields' "
+            f"(as written by est.to_dict()). Got {type(d).__name__} with keys "
+            f"{sorted(d) if isinstance(d, dict) else '-'}."
+        )
+    schema = d.get("schema", SCHEMA_VERSION)
+    if not isinstance(schema, int) or schema > SCHEMA_VERSION or schema < 1:
+        raise SettingsError(
+            f"The estimator description has schema {schema!r}; this specbench reads schema "
+            f"1 to {SCHEMA_VERSION}. Upgrade specbench to read it."
+        )
+    kind = d["kind"]
+    cls = _REGISTRY.get(kind)
+    if cls is None:
+        raise SettingsError(
+            f"Unknown estimator kind {kind!r}. Known kinds: {', '.join(sorted(_REGISTRY))}."
+        )
+    fields = d["fields"]
+    if not isinstance(fields, dict):
+        raise SettingsError(f"The 'fields' of a {kind} description must be a mapping; got {fields!r}.")
+    unknown = set(fields) - set(cls.params())
+    if unknown:
+        raise SettingsError(
+            f"{kind} has no parameter {', '.join(sorted(map(repr, unknown)))}. "
+            f"Its parameters are: {', '.join(cls.params())}."
+        )
+    return cls(**fields)

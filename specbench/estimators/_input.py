@@ -1,0 +1,136 @@
+"""Turn whatever the user passes into a (channels..., samples) array with a sample rate.
+
+The estimators accept plain arrays (with ``fs=``) and any *signal-like* object: an
+object with ``data`` (samples on the last axis), ``fs`` (Hz), ``channels`` (names) and
+``unit``.  Richer containers (pandas, xarray) are handled by converters that the data
+layer registers at import time, so this layer never imports the data layer.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Callable
+from dataclasses import dataclass
+from typing import Any
+
+import numpy as np
+
+from .._errors import InputError
+
+__all__ = ["Samples", "as_samples", "register_converter"]
+
+_CONVERTERS: list[Callable[[Any], Any]] = []
+
+
+def register_converter(func: Callable[[Any], Any]) -> None:
+    """Register ``func(obj) -> signal-like or None`` for containers this layer does not know."""
+    if func not in _CONVERTERS:
+        _CONVERTERS.append(func)
+
+
+@dataclass(frozen=True)
+class Samples:
+    """Validated input of one estimator call."""
+
+    data: np.ndarray  # (..., n) float32/float64/complex
+    fs: float
+    channels: tuple[str, ...] | None
+    unit: str | tuple[str, ...]
+    source: Any = None  # the signal-like object, when one was given
+
+    @property
+    def n(self) -> int:
+        return self.data.shape[-1]
+
+
+def _is_signal_like(obj: Any) -> bool:
+    return all(hasattr(obj, a) for a in ("data", "fs", "channels", "unit"))
+
+
+def _check_fs(fs: Any) -> float:
+    try:
+        value = float(fs)
+    except (TypeError, ValueError):
+        raise InputError(
+            f"The sample rate fs must be a positive number in Hz. Got {fs!r} instead. "
+            "Pass fs=<samples per second>."
+        ) from None
+    if not np.isfinite(value) or value <= 0:
+        raise InputError(
+            f"The sample rate fs must be a positive, finite number in Hz. Got {fs!r} instead. "
+            "Pass fs=<samples per second>."
+        )
+    return value
+
+
+def as_samples(x: Any, fs: Any = None, *, min_samples: int = 2) -> Samples:
+    """Validate ``x`` (array or signal-like) and return :class:`Samples`.
+
+    Integer and boolean arrays are converted to float64; float32 stays float32 so that
+    the engines can work in single precision without copying the record.
+    """
+    obj = x
+    if not _is_signal_like(obj) and not isinstance(obj, np.ndarray):
+        for conv in _CONVERTERS:
+            converted = conv(obj)
+            if converted is not None:
+                obj = converted
+                break
+    if _is_signal_like(obj):
+        sig_fs = _check_fs(obj.fs)
+        if fs is not None and _check_fs(fs) != sig_fs:
+            raise InputError(
+                f"fs={fs!r} was passed for a signal whose sample rate is {sig_fs!r} Hz. "
+                "Leave fs out, or change the signal's rate with signal.with_fs(...)."
+            )
+        data = obj.data
+        channels = tuple(obj.channels) if obj.channels is not None else None
+        unit = obj.unit
+        source = obj
+        fs_value = sig_fs
+    else:
+        if isinstance(obj, (list, tuple)):
+            obj = np.asarray(obj)
+        if not isinstance(obj, np.ndarray):
+            raise InputError(
+                f"Cannot estimate from an object of type {type(obj).__name__}. "
+                "Pass a NumPy array with fs=..., a specbench Signal, a pandas Series/DataFrame "
+                "or an xarray DataArray."
+            )
+        if fs is None:
+            raise InputError(
+                "A plain array carries no sample rate. Pass fs=<samples per second>, "
+                "or wrap the data as sb.Signal(array, fs=...)."
+            )
+        fs_value = _check_fs(fs)
+        data, channels, unit, source = obj, None, "", None
+    data = _as_numeric(data)
+    if data.ndim == 0:
+        raise InputError("The data is a scalar; pass at least a 1-D array of samples.")
+    n = data.shape[-1]
+    if n < min_samples:
+        raise InputError(
+            f"The data has {n} sample{'s' if n != 1 else ''} on its last axis; at least "
+            f"{min_samples} are needed. Samples go on the last axis: check the shape "
+            f"{data.shape} (transpose a (samples, channels) array with .T)."
+        )
+    return Samples(data=data, fs=fs_value, channels=channels, unit=unit, source=source)
+
+
+def _as_numeric(data: Any) -> np.ndarray:
+    arr = data if isinstance(data, np.ndarray) else np.asarray(data)
+    if arr.dtype.kind in "biu":
+        return arr.astype(np.float64)
+    if arr.dtype.kind == "f":
+        if arr.dtype.itemsize < 4:
+            return arr.astype(np.float32)
+        if arr.dtype.itemsize > 8:
+            return arr.astype(np.float64)
+        return arr
+    if arr.dtype.kind == "c":
+        if arr.dtype.itemsize > 16:
+            return arr.astype(np.complex128)
+        return arr
+    raise InputError(
+        f"The data has dtype {arr.dtype}, which is not numeric. Convert it to float "
+        "(for text cells, load the file with sb.load, which reports the bad cell)."
+    )

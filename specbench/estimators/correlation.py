@@ -1,0 +1,273 @@
+"""Auto- and cross-correlation estimators with white-noise and Bartlett bands.
+
+References
+----------
+.. [1] M. S. Bartlett, "On the theoretical specification and sampling properties of
+   autocorrelated time-series," J. R. Stat. Soc. Suppl. 8(1), 27-41, 1946.
+.. [2] G. E. P. Box and G. M. Jenkins, *Time Series Analysis: Forecasting and Control*,
+   Holden-Day, 1976: eq. (2.1.13) large-lag variance of r_k, eq. (11.1.7) variance of the
+   cross-correlation of independent series (from memory).
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+from typing import Any, ClassVar
+
+import numpy as np
+from scipy import stats
+
+from .._errors import InputError
+from ._base import Estimator
+from ._common import Timer, confidence_field, detrend_field, nonfinite_error, restore_shape
+from ._engine import as_2d, lagged_products, trend_coefficients
+from ._input import as_samples
+from ._params import Boolean, Interval, Optional, Options, param
+from ._results import Correlation, power_unit
+
+__all__ = ["Autocorrelation", "CrossCorrelation", "detrended_copyless_products"]
+
+#: default number of lags when ``max_lag`` is None
+DEFAULT_LAGS = 2048
+
+
+def detrended_copyless_products(x: np.ndarray, y: np.ndarray, m: int, detrend: str) -> np.ndarray:
+    """Lagged products of ``x`` and ``y`` after removing each one's trend (no record copy)."""
+    tx = trend_coefficients(x, detrend) if detrend != "none" else None
+    ty = tx if y is x else (trend_coefficients(y, detrend) if detrend != "none" else None)
+    return lagged_products(x, y, m, tx, ty)
+
+
+def _max_lag_samples(owner: str, max_lag: float | None, fs: float, n: int) -> int:
+    if max_lag is None:
+        return min(n - 1, DEFAULT_LAGS)
+    m = int(math.floor(max_lag * fs + 1e-9))
+    if m < 1:
+        raise InputError(
+            f"The max_lag of {owner} is {max_lag:g} s, less than one sample at fs = {fs:g} Hz. "
+            f"Choose max_lag >= {1 / fs:g} s."
+        )
+    if m > n - 1:
+        raise InputError(
+            f"The max_lag of {owner} is {max_lag:g} s ({m} samples), but the data has only "
+            f"{n} samples ({n / fs:g} s). Choose max_lag <= {(n - 1) / fs:g} s."
+        )
+    return m
+
+
+def _max_lag_field() -> Any:
+    return param(
+        None,
+        Optional(Interval(float, 0, None, closed="neither"), f"the first {DEFAULT_LAGS} lags"),
+        label="Maximum lag",
+        unit="s",
+        scale="log",
+        group="correlation",
+        help="Largest lag shown, in seconds.",
+    )
+
+
+def _band_field(help_text: str) -> Any:
+    return param("white", Options(("white", "bartlett")), label="Band", group="correlation", help=help_text)
+
+
+def _z(confidence: float) -> float:
+    return float(stats.norm.ppf(0.5 + confidence / 2))
+
+
+@dataclass(frozen=True, kw_only=True, repr=False)
+class Autocorrelation(Estimator):
+    """Sample autocorrelation (or autocovariance) by blocked FFT, with a band.
+
+    ``r_k = (1/N) sum_t x_t x_{t+k}`` of the detrended data (``unbiased=True`` divides by
+    ``N - k``), normalised by ``r_0`` when ``normalize``.  Bands at the ``confidence``
+    level:
+
+    - ``band="white"``: where a white process's estimate stays, centred on zero:
+      ``+- z sqrt(N - k) / N`` (``+- z / sqrt(N - k)`` unbiased), about ``+- z / sqrt(N)``
+      (common practice; Box & Jenkins 1976).
+    - ``band="bartlett"``: around the estimate, ``r_k +- z sqrt((1 + 2 sum_{j<k} r_j^2)/N)``
+      (Bartlett 1946), as ``statsmodels.tsa.stattools.acf(alpha=...)`` computes it.
+
+    Unnormalised estimates scale the band by ``r_0``.
+    """
+
+    kind: ClassVar[str] = "Autocorrelation"
+    title: ClassVar[str] = "Autocorrelation"
+
+    max_lag: float | None = _max_lag_field()
+    normalize: bool = param(True, Boolean(), label="Normalise", group="correlation",
+                            help="Divide by the lag-0 value (correlation coefficient).")
+    unbiased: bool = param(False, Boolean(), label="Unbiased", group="correlation",
+                           help="Divide lag k by N - k instead of N (noisier at long lags).")
+    band: str = _band_field("white: band of a white process; bartlett: Bartlett's interval around the estimate.")
+    detrend: str = detrend_field()
+    confidence: float = confidence_field()
+
+    def __call__(self, x: Any, fs: float | None = None) -> Correlation:
+        """Estimate the autocorrelation of ``x`` (samples on the last axis)."""
+        samples = as_samples(x, fs)
+        if np.iscomplexobj(samples.data):
+            raise InputError("Autocorrelation supports real data only; pass x.real and x.imag separately.")
+        x2 = as_2d(samples.data)
+        n = x2.shape[-1]
+        m = _max_lag_samples("Autocorrelation", self.max_lag, samples.fs, n)
+        with Timer() as t:
+            s = detrended_copyless_products(x2, x2, m, self.detrend)
+        if not np.all(np.isfinite(s)):
+            raise nonfinite_error(x2, "Autocorrelation")
+        k = np.arange(m + 1)
+        r = s / (n - k) if self.unbiased else s / n
+        r0 = r[:, :1].copy()
+        rho = r / np.where(r0 > 0, r0, 1.0)
+        value = rho if self.normalize else r
+        scale = np.ones_like(r0) if self.normalize else r0
+        z = _z(self.confidence)
+        if self.band == "white":
+            sd = 1 / np.sqrt(n - k) if self.unbiased else np.sqrt(n - k) / n
+            half = z * sd[None, :] * scale
+            lower, upper = -half, half.copy()
+        else:
+            var = np.ones_like(rho) / n
+            var[:, 0] = 0
+            if m >= 2:
+                var[:, 2:] *= 1 + 2 * np.cumsum(rho[:, 1:-1] ** 2, axis=-1)
+            half = z * np.sqrt(var) * scale
+            lower, upper = value - half, value + half
+        lower[:, 0] = upper[:, 0] = value[:, 0]
+        lead = samples.data.shape[:-1]
+        unit = samples.unit
+        out_unit = "" if self.normalize else (
+            tuple(power_unit(u) for u in unit) if isinstance(unit, tuple) else power_unit(unit)
+        )
+        return Correlation(
+            lag=k / samples.fs,
+            value=restore_shape(value, lead),
+            lower=restore_shape(lower, lead),
+            upper=restore_shape(upper, lead),
+            fs=samples.fs,
+            n=n,
+            estimator=self,
+            channels=samples.channels,
+            unit=out_unit,
+            kind="auto",
+            band=self.band,
+            confidence=self.confidence,
+            info=dict(max_lag_samples=m, compute_seconds=t.seconds,
+                      variance=restore_shape(r0, lead)[..., 0]),
+        )
+
+
+@dataclass(frozen=True, kw_only=True, repr=False)
+class CrossCorrelation(Estimator):
+    """Sample cross-correlation of two channels, ``r_xy(k) = (1/N) sum_t x_t y_{t+k}``.
+
+    A positive lag means ``y`` lags ``x``: a peak at ``+d`` seconds says ``y`` is ``x``
+    delayed by ``d`` (``.peak_lag()``).  Normalised by ``sqrt(r_xx(0) r_yy(0))``.  Bands,
+    centred on zero (the hypothesis of independent series):
+
+    - ``"white"``: ``+- z / sqrt(N)``, valid when at least one series is white;
+    - ``"bartlett"``: ``+- z sqrt(sum_j rho_xx(j) rho_yy(j) / N)`` over ``|j| <= max_lag``
+      (Bartlett 1955; Box & Jenkins 1976 eq. (11.1.7), from memory), for two
+      autocorrelated but independent series.
+    """
+
+    kind: ClassVar[str] = "CrossCorrelation"
+    title: ClassVar[str] = "Cross-correlation"
+
+    max_lag: float | None = _max_lag_field()
+    normalize: bool = param(True, Boolean(), label="Normalise", group="correlation",
+                            help="Divide by sqrt(r_xx(0) r_yy(0)) (correlation coefficient).")
+    band: str = _band_field("white: for a white series; bartlett: for two autocorrelated series.")
+    detrend: str = detrend_field()
+    confidence: float = confidence_field()
+
+    def __call__(self, x: Any, y: Any = None, *, fs: float | None = None,
+                 pair: tuple[int | str, int | str] | None = None) -> Correlation:
+        """Cross-correlate ``x`` and ``y``, or two channels of ``x`` chosen by ``pair``."""
+        sx = as_samples(x, fs)
+        if y is not None:
+            sy = as_samples(y, fs if fs is not None else sx.fs)
+            if sy.fs != sx.fs:
+                raise InputError(
+                    f"The two signals have different sample rates ({sx.fs:g} and {sy.fs:g} Hz). "
+                    "Resample one of them first."
+                )
+            a, b = as_2d(sx.data), as_2d(sy.data)
+            if a.shape[0] != 1 or b.shape[0] != 1:
+                raise InputError("Pass one channel as x and one as y (or one multichannel x with pair=).")
+            if a.shape[-1] != b.shape[-1]:
+                raise InputError(
+                    f"x has {a.shape[-1]} samples and y has {b.shape[-1]}; cross-correlation "
+                    "needs simultaneous records of equal length. Cut both to the same span."
+                )
+            names = ((sx.channels or ("x",))[0], (sy.channels or ("y",))[0])
+            units = (sx.unit if isinstance(sx.unit, str) else sx.unit[0],
+                     sy.unit if isinstance(sy.unit, str) else sy.unit[0])
+        else:
+            data = as_2d(sx.data)
+            chans = sx.channels or tuple(str(i) for i in range(data.shape[0]))
+            if pair is None:
+                if data.shape[0] != 2:
+                    raise InputError(
+                        f"The data has {data.shape[0]} channel(s); say which two to use with "
+                        f"pair=(a, b) (names {list(chans)} or indices), or pass y=."
+                    )
+                pair = (0, 1)
+            idx = []
+            for p in pair:
+                if isinstance(p, str):
+                    if p not in chans:
+                        raise InputError(f"No channel named {p!r}; the channels are {list(chans)}.")
+                    idx.append(chans.index(p))
+                else:
+                    if not -data.shape[0] <= int(p) < data.shape[0]:
+                        raise InputError(f"Channel index {p} is out of range for {data.shape[0]} channels.")
+                    idx.append(int(p))
+            a, b = data[idx[0]][None, :], data[idx[1]][None, :]
+            names = (chans[idx[0]], chans[idx[1]])
+            u = sx.unit
+            units = (u, u) if isinstance(u, str) else (u[idx[0]], u[idx[1]])
+        if np.iscomplexobj(a) or np.iscomplexobj(b):
+            raise InputError("CrossCorrelation supports real data only.")
+        n = a.shape[-1]
+        m = _max_lag_samples("CrossCorrelation", self.max_lag, sx.fs, n)
+        with Timer() as t:
+            pos = detrended_copyless_products(a, b, m, self.detrend)[0]
+            neg = detrended_copyless_products(b, a, m, self.detrend)[0]
+            need_auto = self.normalize or self.band == "bartlett"
+            if need_auto:
+                raa = detrended_copyless_products(a, a, m, self.detrend)[0] / n
+                rbb = detrended_copyless_products(b, b, m, self.detrend)[0] / n
+        s = np.concatenate([neg[:0:-1], pos]) / n
+        if not np.all(np.isfinite(s)):
+            raise nonfinite_error(np.vstack([a, b]), "CrossCorrelation")
+        norm = math.sqrt(raa[0] * rbb[0]) if need_auto and raa[0] * rbb[0] > 0 else 1.0
+        value = s / norm if self.normalize else s
+        scale = 1.0 if self.normalize else norm
+        z = _z(self.confidence)
+        if self.band == "white":
+            sd = 1 / math.sqrt(n)
+        else:
+            pa, pb = raa / raa[0], rbb / rbb[0]
+            sd = math.sqrt((1 + 2 * float(np.dot(pa[1:], pb[1:]))) / n)
+        half = np.full_like(value, z * sd * scale)
+        unit = "" if self.normalize else (
+            f"{units[0]}*{units[1]}" if units[0] != units[1] else power_unit(units[0])
+        )
+        return Correlation(
+            lag=np.arange(-m, m + 1) / sx.fs,
+            value=value,
+            lower=-half,
+            upper=half,
+            fs=sx.fs,
+            n=n,
+            estimator=self,
+            channels=names,
+            unit=unit,
+            kind="cross",
+            band=self.band,
+            confidence=self.confidence,
+            info=dict(max_lag_samples=m, compute_seconds=t.seconds),
+        )

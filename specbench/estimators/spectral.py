@@ -1,0 +1,635 @@
+"""Power spectral density estimators: Welch, periodogram, Thomson multitaper, Blackman-Tukey.
+
+Each estimator is a frozen dataclass of its settings; calling it on data returns a
+:class:`~specbench.estimators._results.Spectrum` with a chi-square confidence band from
+the estimator's equivalent degrees of freedom.
+
+References
+----------
+.. [1] P. D. Welch, "The use of fast Fourier transform for the estimation of power
+   spectra," IEEE Trans. Audio Electroacoust. AU-15(2), 70-73, 1967.
+.. [2] D. J. Thomson, "Spectrum estimation and harmonic analysis," Proc. IEEE 70(9),
+   1055-1096, 1982.
+.. [3] R. B. Blackman and J. W. Tukey, *The Measurement of Power Spectra*, Dover, 1958.
+.. [4] D. B. Percival and A. T. Walden, *Spectral Analysis for Physical Applications*,
+   Cambridge University Press, 1993.
+"""
+
+from __future__ import annotations
+
+import functools
+import math
+import warnings
+from dataclasses import dataclass
+from typing import Any, ClassVar
+
+import numpy as np
+import scipy.fft
+import scipy.signal
+from scipy.signal.windows import dpss
+
+from .._errors import InputError, SpecbenchWarning
+from ._base import Estimator
+from ._common import (
+    Timer,
+    check_finite_result,
+    confidence_field,
+    detrend_field,
+    nfft_field,
+    nonfinite_error,
+    onesided_for,
+    restore_shape,
+    samples_of,
+    scaling_field,
+    sides_field,
+    too_short,
+    window_field,
+)
+from ._dof import band_factors, edge_bins, median_dof_factor, welch_dof
+from ._engine import detrended_variance, segment_power
+from ._params import Boolean, Interval, Optional, Options, param
+from ._results import Spectrum
+from .correlation import detrended_copyless_products
+from .windows import get_window, window_info, window_label
+
+__all__ = ["Welch", "Periodogram", "Multitaper", "Correlogram", "SpectralEstimator"]
+
+
+@dataclass(frozen=True, kw_only=True, repr=False)
+class SpectralEstimator(Estimator):
+    """Common behaviour of the PSD estimators: call on data, get a :class:`Spectrum`."""
+
+    #: the estimator leaves some trailing samples out (segments) -> reported in info
+    method: ClassVar[str] = ""
+
+    def __call__(self, x: Any, fs: float | None = None) -> Spectrum:
+        """Estimate the spectrum of ``x``.
+
+        Parameters
+        ----------
+        x : array_like, Signal, pandas or xarray object
+            Samples on the last axis; leading axes are channels.
+        fs : float, optional
+            Sample rate in Hz; required for plain arrays, taken from a Signal otherwise.
+        """
+        samples, x2 = samples_of(x, fs)
+        onesided = onesided_for(self.sides, x2, type(self).__name__)
+        with Timer() as t:
+            parts = self._estimate(x2, samples.fs, onesided)
+        value = parts.pop("value")
+        check_finite_result(value, x2, type(self).__name__, parts.pop("limit"))
+        dof = parts.pop("dof")
+        lo, hi = band_factors(dof, self.confidence)
+        freq = parts.pop("freq")
+        if not onesided:
+            freq = np.fft.fftshift(freq)
+            value, lo, hi, dof = (np.fft.fftshift(a, axes=-1) for a in (value, lo, hi, dof))
+        lead = samples.data.shape[:-1]
+        value = restore_shape(value, lead)
+        dof = restore_shape(dof, lead) if dof.ndim == 2 else dof
+        lo = lo if lo.ndim == 1 else restore_shape(lo, lead)
+        hi = hi if hi.ndim == 1 else restore_shape(hi, lead)
+        info = parts.pop("info")
+        info["compute_seconds"] = t.seconds
+        return Spectrum(
+            freq=freq,
+            value=value,
+            lower=value * lo,
+            upper=value * hi,
+            dof=dof,
+            fs=samples.fs,
+            data_unit=samples.unit,
+            scaling=self.scaling,
+            confidence=self.confidence,
+            estimator=self,
+            channels=samples.channels,
+            onesided=onesided,
+            variance=restore_shape(parts.pop("variance")[:, None], lead)[..., 0],
+            info=info,
+            **parts,
+        )
+
+    def _estimate(self, x: np.ndarray, fs: float, onesided: bool) -> dict:
+        raise NotImplementedError
+
+
+def _freqs(nfft: int, fs: float, onesided: bool) -> np.ndarray:
+    return scipy.fft.rfftfreq(nfft, 1 / fs) if onesided else scipy.fft.fftfreq(nfft, 1 / fs)
+
+
+def _one_sided(p: np.ndarray, nfft: int) -> None:
+    """Double every bin except DC (and Nyquist for even nfft), in place (scipy's rule)."""
+    if nfft % 2:
+        p[..., 1:] *= 2
+    else:
+        p[..., 1:-1] *= 2
+
+
+def _edge_dof(nu: np.ndarray, nfft: int, onesided: bool, real: bool) -> np.ndarray:
+    """DC and Nyquist bins of real data carry half the degrees of freedom."""
+    if real:
+        nu[..., edge_bins(nu.shape[-1], nfft, onesided)] *= 0.5
+    return nu
+
+
+def _averaged_periodogram(
+    est: Any,
+    x: np.ndarray,
+    fs: float,
+    onesided: bool,
+    *,
+    nperseg: int,
+    step: int,
+    nfft: int,
+    average: str,
+    mask: np.ndarray | None,
+) -> dict:
+    """The Welch / periodogram computation on (C, N) data."""
+    w = get_window(est.window, nperseg)
+    n = x.shape[-1]
+    n_all = (n - nperseg) // step + 1
+    segments = None if mask is None else np.nonzero(mask)[0]
+    if segments is not None and segments.size == 0:
+        raise InputError(
+            f"Every one of the {n_all} segments touches a non-finite sample, so "
+            f"{type(est).__name__}(gaps='skip') has nothing left to average. Use a shorter "
+            "segment_length, or a span with fewer gaps."
+        )
+    median = average == "median"
+    power, nseg = segment_power(
+        x, window=w, step=step, nfft=nfft, detrend=est.detrend, twosided=not onesided,
+        segments=segments, keep_each=median,
+    )
+    if median:
+        value = np.median(power, axis=1) / scipy.signal._spectral_py._median_bias(nseg)
+    else:
+        value = power / nseg
+    if est.scaling == "density":
+        value *= 1.0 / (fs * float(np.dot(w, w)))
+    else:
+        value *= 1.0 / float(w.sum()) ** 2
+    if onesided:
+        _one_sided(value, nfft)
+    nu = welch_dof(w, step, nseg if mask is None else mask)
+    if median:
+        nu *= median_dof_factor(nseg)
+    real = not np.iscomplexobj(x)
+    dof = _edge_dof(np.full(value.shape[-1], nu), nfft, onesided, real)
+    info = window_info(est.window, nperseg)
+    used_len = (n_all - 1) * step + nperseg
+    if mask is None:
+        variance = detrended_variance(x[:, :used_len], est.detrend)
+    else:
+        covered = np.zeros(n, dtype=bool)
+        for s in segments:
+            covered[s * step : s * step + nperseg] = True
+        variance = detrended_variance(x[:, covered], est.detrend)
+    return dict(
+        value=value,
+        dof=dof,
+        freq=_freqs(nfft, fs, onesided),
+        resolution=info.enbw_bins * fs / nperseg,
+        segments=nseg,
+        samples_used=used_len,
+        variance=variance,
+        limit=used_len,
+        info=dict(
+            nperseg=nperseg,
+            noverlap=nperseg - step,
+            step=step,
+            nfft=nfft,
+            window_label=window_label(est.window),
+            enbw_bins=info.enbw_bins,
+            highest_sidelobe_db=info.highest_sidelobe_db,
+            segments_skipped=0 if mask is None else int(n_all - nseg),
+            samples_dropped=n - used_len,
+        ),
+    )
+
+
+# ---------------------------------------------------------------- Welch
+
+
+@dataclass(frozen=True, kw_only=True, repr=False)
+class Welch(SpectralEstimator):
+    """Welch's overlapped segment averaging [1]_.
+
+    The record is cut into segments of ``segment_length`` samples that overlap by the
+    fraction ``overlap`` (``noverlap = floor(overlap * segment_length)`` samples); each is
+    detrended, windowed and Fourier transformed, and the periodograms are averaged (mean,
+    or median for robustness to transients).  For the same settings it equals
+    ``scipy.signal.welch`` to floating-point precision.
+
+    The confidence band uses the equivalent degrees of freedom of the average including
+    the correlation between overlapping segments (Percival & Walden 1993, eq. (292b)).
+    Median averaging: the median of ``n`` segments gets the dof of the median of ``n``
+    independent exponential variables (exact moments), times the same overlap penalty as
+    the mean (our method, checked by Monte Carlo coverage).
+
+    Parameters
+    ----------
+    window : str or tuple
+        Taper of each segment, e.g. ``"hann"`` or ``("kaiser", 8.6)``.
+    segment_length : int
+        Samples per segment; the frequency resolution is ``ENBW * fs / segment_length``.
+    overlap : float
+        Fraction of a segment shared with the next, in [0, 1).
+    average : {"mean", "median"}
+    gaps : {"error", "skip"}
+        ``"skip"`` leaves out the segments that touch a non-finite sample, counts them
+        (``spectrum.info["segments_skipped"]``) and computes the dof from the segments used.
+
+    Examples
+    --------
+    >>> import numpy as np, specbench as sb
+    >>> rng = np.random.default_rng(0)
+    >>> x = rng.standard_normal(100_000)            # unit variance, fs = 1 kHz
+    >>> spec = sb.Welch(segment_length=1024)(x, fs=1000.0)
+    >>> print(f"{np.median(spec.value):.4f} (V^2/Hz)")  # white level 2 sigma^2 / fs
+    0.0020 (V^2/Hz)
+    >>> print(f"{spec.dof[5]:.1f} degrees of freedom")
+    343.6 degrees of freedom
+    """
+
+    title: ClassVar[str] = "Welch (averaged segments)"
+
+    window: Any = window_field("hann")
+    segment_length: int = param(
+        1024,
+        Interval(int, 4, None),
+        label="Segment length",
+        unit="samples",
+        scale="log2",
+        group="window",
+        help="Samples per segment: longer gives finer resolution and fewer averages.",
+    )
+    overlap: float = param(
+        0.5,
+        Interval(float, 0, 1, closed="left"),
+        label="Overlap",
+        group="window",
+        help="Fraction of each segment shared with the next.",
+    )
+    average: str = param(
+        "mean",
+        Options(("mean", "median")),
+        label="Averaging",
+        group="band",
+        help="mean: most stable for stationary noise; median: robust to transients.",
+    )
+    detrend: str = detrend_field()
+    scaling: str = scaling_field()
+    sides: str = sides_field()
+    nfft: int | None = nfft_field("FFT length per segment (>= segment length; zero padding interpolates).")
+    confidence: float = confidence_field()
+    gaps: str = param(
+        "error",
+        Options(("error", "skip")),
+        label="Gaps",
+        group="data",
+        help="error: non-finite samples are an error; skip: leave out segments that touch them.",
+    )
+
+    def _check(self) -> None:
+        if self.nfft is not None and self.nfft < self.segment_length:
+            self._fail(
+                "nfft",
+                f"None or an integer >= segment_length ({self.segment_length})",
+                "Zero padding can only lengthen a segment.",
+            )
+
+    @property
+    def noverlap(self) -> int:
+        """Overlap in samples, ``floor(overlap * segment_length)``."""
+        return int(math.floor(self.overlap * self.segment_length))
+
+    def _estimate(self, x: np.ndarray, fs: float, onesided: bool) -> dict:
+        n = x.shape[-1]
+        nperseg = self.segment_length
+        if nperseg > n:
+            raise too_short(
+                "Welch", "segment_length", nperseg, n,
+                f"Choose segment_length <= {n} (for example {1 << (n.bit_length() - 1)}), "
+                "or analyse a longer span.",
+            )
+        step = nperseg - self.noverlap
+        mask = None
+        if self.gaps == "skip":
+            n_all = (n - nperseg) // step + 1
+            bad = np.zeros(n + 1, dtype=np.int64)
+            bad[1:] = np.cumsum(~np.all(np.isfinite(x), axis=0))
+            starts = np.arange(n_all) * step
+            m = (bad[starts + nperseg] - bad[starts]) == 0
+            if not m.all():
+                mask = m
+        return _averaged_periodogram(
+            self, x, fs, onesided, nperseg=nperseg, step=step,
+            nfft=self.nfft or nperseg, average=self.average, mask=mask,
+        )
+
+
+# ---------------------------------------------------------------- Periodogram
+
+
+@dataclass(frozen=True, kw_only=True, repr=False)
+class Periodogram(SpectralEstimator):
+    """The (modified) periodogram of the whole record: one windowed segment.
+
+    Finest resolution and 2 degrees of freedom per bin (1 at DC and Nyquist): the
+    relative standard error is 100 %, whatever the record length.  Equals
+    ``scipy.signal.periodogram`` for the same settings.
+    """
+
+    title: ClassVar[str] = "Periodogram (whole record)"
+
+    window: Any = window_field("boxcar")
+    detrend: str = detrend_field()
+    scaling: str = scaling_field()
+    sides: str = sides_field()
+    nfft: int | None = nfft_field("FFT length (>= the number of samples; zero padding interpolates).")
+    confidence: float = confidence_field()
+
+    def _estimate(self, x: np.ndarray, fs: float, onesided: bool) -> dict:
+        n = x.shape[-1]
+        nfft = self.nfft or n
+        if nfft < n:
+            raise InputError(
+                f"The nfft of Periodogram is {nfft}, shorter than the {n} samples of the data; "
+                "the periodogram never truncates data. Leave nfft=None, or choose nfft >= "
+                f"{n}, or analyse a shorter span."
+            )
+        return _averaged_periodogram(
+            self, x, fs, onesided, nperseg=n, step=n, nfft=nfft, average="mean", mask=None
+        )
+
+
+# ---------------------------------------------------------------- Multitaper
+
+
+@functools.lru_cache(maxsize=8)
+def _tapers(n: int, nw: float, k: int) -> tuple[np.ndarray, np.ndarray]:
+    """Unit-energy DPSS tapers (k, n) and their concentration ratios, cached."""
+    h, ratios = dpss(n, nw, Kmax=k, sym=True, norm=2, return_ratios=True)
+    h = np.atleast_2d(h)
+    h.setflags(write=False)
+    return h, np.atleast_1d(ratios)
+
+
+def _adaptive(sk: np.ndarray, lam: np.ndarray, sigma2: np.ndarray, fs: float):
+    """Thomson's adaptive weighting, iterated to convergence.
+
+    ``sk``: (C, K, F) two-sided eigenspectra; ``lam``: (K,) concentrations; ``sigma2``:
+    (C,) data variance.  Weights ``b_k = sqrt(l_k) S / (l_k S + (1 - l_k) sigma^2 / fs)``,
+    estimate ``sum b_k^2 S_k / sum b_k^2`` (Percival & Walden 1993 eqs. (368a), (369a);
+    Thomson 1982), dof ``2 (sum b_k^2 l_k)^2 / sum b_k^4 l_k^2`` (P&W eq. (370a)); from
+    memory, checked by Monte Carlo coverage.
+    """
+    lam = lam[None, :, None]
+    broad = ((1 - lam) * sigma2[:, None, None] / fs)
+    s = sk[:, :2].mean(axis=1, keepdims=True)
+    for _ in range(200):
+        b2 = lam * s**2 / (lam * s + broad) ** 2
+        new = (b2 * sk).sum(axis=1, keepdims=True) / b2.sum(axis=1, keepdims=True)
+        done = np.max(np.abs(new - s) / np.maximum(new, np.finfo(float).tiny)) < 1e-10
+        s = new
+        if done:
+            break
+    b2 = lam * s**2 / (lam * s + broad) ** 2
+    dof = 2 * (b2 * lam).sum(axis=1) ** 2 / (b2**2 * lam**2).sum(axis=1)
+    return s[:, 0], dof
+
+
+@dataclass(frozen=True, kw_only=True, repr=False)
+class Multitaper(SpectralEstimator):
+    """Thomson's multitaper estimate with discrete prolate spheroidal (DPSS) tapers [2]_.
+
+    ``tapers`` orthogonal tapers of time-half-bandwidth ``bandwidth`` (NW) each give an
+    eigenspectrum; their average has ``2K`` degrees of freedom (equal weights) or the
+    frequency-dependent dof of Thomson's adaptive weights.  The spectral window is about
+    ``2W = 2 NW fs / n`` wide.  ``segment_length`` optionally applies the estimate to
+    non-overlapping segments and averages them (``2K`` per segment): tapers of a whole
+    long record are costly to build (about 1.4 s at 1e6 samples), so long records are
+    best cut into segments.
+
+    With adaptive weighting over several segments, the weights are computed once from
+    the segment-averaged eigenspectra (our simplification).
+    """
+
+    title: ClassVar[str] = "Thomson multitaper"
+
+    bandwidth: float = param(
+        4.0,
+        Interval(float, 0.5, None),
+        label="Time-bandwidth NW",
+        group="window",
+        help="NW: the spectral window is 2NW bins wide; more NW allows more tapers.",
+    )
+    tapers: int | None = param(
+        None,
+        Optional(Interval(int, 1, None), "2NW - 1"),
+        label="Tapers",
+        group="window",
+        help="Number of DPSS tapers K (at most 2NW); default 2NW - 1.",
+    )
+    adaptive: bool = param(
+        True,
+        Boolean(),
+        label="Adaptive weights",
+        group="band",
+        help="Thomson's adaptive weighting (reduces broadband leakage).",
+    )
+    segment_length: int | None = param(
+        None,
+        Optional(Interval(int, 8, None), "whole record"),
+        label="Segment length",
+        unit="samples",
+        scale="log2",
+        group="window",
+        help="Apply the tapers to non-overlapping segments of this length and average.",
+    )
+    detrend: str = detrend_field()
+    scaling: str = scaling_field()
+    sides: str = sides_field()
+    nfft: int | None = nfft_field("FFT length (>= the tapered length; zero padding interpolates).")
+    confidence: float = confidence_field()
+
+    @property
+    def n_tapers(self) -> int:
+        return self.tapers if self.tapers is not None else max(1, int(math.floor(2 * self.bandwidth)) - 1)
+
+    def _check(self) -> None:
+        if self.tapers is not None and self.tapers > math.floor(2 * self.bandwidth):
+            self._fail(
+                "tapers",
+                f"None or an integer in the range [1, {math.floor(2 * self.bandwidth)}] (2NW)",
+                "Tapers beyond 2NW are poorly concentrated; raise bandwidth to use more.",
+            )
+        if self.nfft is not None and self.segment_length is not None and self.nfft < self.segment_length:
+            self._fail("nfft", f"None or an integer >= segment_length ({self.segment_length})")
+
+    def _estimate(self, x: np.ndarray, fs: float, onesided: bool) -> dict:
+        n = x.shape[-1]
+        seg = self.segment_length or n
+        if seg > n:
+            raise too_short(
+                "Multitaper", "segment_length", seg, n,
+                f"Choose segment_length <= {n}, or None for the whole record.",
+            )
+        if self.bandwidth >= seg / 2:
+            raise InputError(
+                f"The bandwidth (NW) of Multitaper is {self.bandwidth:g}, but tapers of "
+                f"{seg} samples allow NW < {seg / 2:g}. Choose a smaller bandwidth or a longer segment."
+            )
+        nfft = self.nfft or seg
+        if nfft < seg:
+            raise InputError(
+                f"The nfft of Multitaper is {nfft}, shorter than the tapered length {seg}. "
+                f"Leave nfft=None or choose nfft >= {seg}."
+            )
+        k = self.n_tapers
+        h, lam = _tapers(seg, float(self.bandwidth), k)
+        nseg = n // seg
+        used = nseg * seg
+        sk = []
+        for taper in h:
+            p, _ = segment_power(
+                x, window=taper, step=seg, nfft=nfft, detrend=self.detrend, twosided=not onesided
+            )
+            sk.append(p / nseg)
+        sk = np.stack(sk, axis=1) / fs  # (C, K, F) two-sided density of each taper
+        if not np.all(np.isfinite(sk)):
+            raise nonfinite_error(x, "Multitaper", used)
+        variance = detrended_variance(x[:, :used], self.detrend)
+        real = not np.iscomplexobj(x)
+        if self.adaptive and k > 1:
+            value, dof = _adaptive(sk, lam, variance, fs)
+            dof = dof * nseg
+        else:
+            value = sk.mean(axis=1)
+            dof = np.full(value.shape[-1], 2.0 * k * nseg)
+        # resolution: ENBW of the average spectral window of equally weighted tapers
+        sums = h.sum(axis=1)
+        enbw_hz = fs * k / float(np.dot(sums, sums)) if np.dot(sums, sums) > 0 else math.nan
+        if self.scaling == "spectrum":
+            value = value * enbw_hz
+        if onesided:
+            _one_sided(value, nfft)
+        dof = _edge_dof(np.array(dof, dtype=float), nfft, onesided, real)
+        return dict(
+            value=value,
+            dof=dof,
+            freq=_freqs(nfft, fs, onesided),
+            resolution=enbw_hz,
+            segments=nseg,
+            samples_used=used,
+            variance=variance,
+            limit=used,
+            info=dict(
+                nperseg=seg,
+                nfft=nfft,
+                tapers=k,
+                bandwidth_hz=2 * self.bandwidth * fs / seg,
+                concentrations=lam.copy(),
+                samples_dropped=n - used,
+            ),
+        )
+
+
+# ---------------------------------------------------------------- Blackman-Tukey
+
+LAG_WINDOWS = ("parzen", "bartlett", "hann", "hamming")
+
+
+@dataclass(frozen=True, kw_only=True, repr=False)
+class Correlogram(SpectralEstimator):
+    """Blackman-Tukey lag-window (correlogram) estimate [3]_.
+
+    The biased autocovariance up to ``max_lag`` samples, tapered by a lag window
+    ``w_k``, is Fourier transformed: ``S(f) = dt sum_{|k|<=M} w_k r_k e^{-i 2 pi f k dt}``.
+    Degrees of freedom ``2 N / sum_k w_k^2`` and bandwidth ``B_W = fs / sum_k w_k^2``
+    (Percival & Walden 1993, section 6.7; from memory).  Parzen and Bartlett lag windows
+    never give negative estimates; Hann and Hamming can, and a warning then says so.
+    Real data only.
+    """
+
+    title: ClassVar[str] = "Blackman-Tukey (correlogram)"
+
+    max_lag: int = param(
+        256,
+        Interval(int, 1, None),
+        label="Maximum lag",
+        unit="samples",
+        scale="log2",
+        group="window",
+        help="Largest lag M of the autocovariance used; resolution is about fs/M.",
+    )
+    lag_window: str = param(
+        "parzen",
+        Options(LAG_WINDOWS),
+        label="Lag window",
+        group="window",
+        help="Taper of the autocovariance; parzen and bartlett keep the estimate positive.",
+    )
+    detrend: str = detrend_field()
+    scaling: str = scaling_field()
+    sides: str = sides_field()
+    nfft: int | None = nfft_field("FFT length (> max_lag); default the power of two >= 2 max_lag.")
+    confidence: float = confidence_field()
+
+    def _check(self) -> None:
+        if self.nfft is not None and self.nfft <= self.max_lag:
+            self._fail("nfft", f"None or an integer > max_lag ({self.max_lag})")
+
+    def lag_weights(self) -> np.ndarray:
+        """``w_k`` for ``k = 0..max_lag`` (symmetric window of length ``2 max_lag + 1``)."""
+        m = self.max_lag
+        return scipy.signal.get_window(self.lag_window, 2 * m + 1, fftbins=False)[m:]
+
+    def _estimate(self, x: np.ndarray, fs: float, onesided: bool) -> dict:
+        if np.iscomplexobj(x):
+            raise InputError(
+                "Correlogram supports real data only. Use Welch or Multitaper for complex data."
+            )
+        n = x.shape[-1]
+        m = self.max_lag
+        if m >= n:
+            raise too_short(
+                "Correlogram", "max_lag", m, n, f"Choose max_lag < {n} (typically n/10 or less)."
+            )
+        nfft = self.nfft or max(2, 1 << math.ceil(math.log2(2 * m)))
+        r = detrended_copyless_products(x, x, m, self.detrend) / n
+        if not np.all(np.isfinite(r)):
+            raise nonfinite_error(x, "Correlogram")
+        w = self.lag_weights()
+        c = r * w
+        two = (2 * scipy.fft.rfft(c, n=nfft, axis=-1).real - c[:, :1]) / fs
+        if not onesided:
+            full = np.concatenate([two, two[:, 1:(nfft + 1) // 2][:, ::-1]], axis=-1)
+            value = full
+        else:
+            value = two.copy()
+            _one_sided(value, nfft)
+        sw2 = float(w[0] ** 2 + 2 * np.sum(w[1:] ** 2))
+        bw = fs / sw2
+        if self.scaling == "spectrum":
+            value = value * bw
+        neg = int(np.sum(value < 0))
+        if neg:
+            warnings.warn(
+                f"The {self.lag_window!r} lag window gave a negative density at {neg} bin(s); "
+                "use lag_window='parzen' or 'bartlett', which cannot.",
+                SpecbenchWarning,
+                stacklevel=3,
+            )
+        dof = _edge_dof(np.full(value.shape[-1], 2.0 * n / sw2), nfft, onesided, True)
+        return dict(
+            value=value,
+            dof=dof,
+            freq=_freqs(nfft, fs, onesided),
+            resolution=bw,
+            segments=1,
+            samples_used=n,
+            variance=r[:, 0].copy(),
+            limit=n,
+            info=dict(nfft=nfft, max_lag=m, lag_window=self.lag_window, sum_w2=sw2),
+        )
