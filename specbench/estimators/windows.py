@@ -73,7 +73,8 @@ WINDOWS: dict[str, WindowKind] = {
     "cosine": WindowKind("Cosine"),
     "lanczos": WindowKind("Lanczos"),
     "kaiser": WindowKind(
-        "Kaiser", (WindowParam("beta", 8.6, Interval(float, 0, None), "", "shape: 0 is rectangular, larger is lower sidelobes"),)
+        "Kaiser",
+        (WindowParam("beta", 8.6, Interval(float, 0, None), "", "shape: 0 is rectangular, larger is lower sidelobes"),),
     ),
     "tukey": WindowKind(
         "Tukey (tapered cosine)",
@@ -163,7 +164,9 @@ class Window(Constraint):
                 raise ValueError(f"The {kind.label} window needs its parameter. " + _window_fix(key, kind))
             return key
         if len(args) > len(kind.params):
-            raise ValueError(f"The {kind.label} window takes {len(kind.params)} parameter(s). " + _window_fix(key, kind))
+            raise ValueError(
+                f"The {kind.label} window takes {len(kind.params)} parameter(s). " + _window_fix(key, kind)
+            )
         checked = []
         for p, a in zip(kind.params, args):
             try:
