@@ -1,0 +1,381 @@
+"""Delimited text files (CSV, TSV, space-separated): dialect detection and parsing.
+
+Detection reads the first lines only: the comment prefix (``#`` or ``%`` at the start of
+a line), the delimiter (``;`` or tab when they split every line alike, then ``,``, then
+``|``, then runs of spaces), the decimal mark (a comma when the delimiter is not one and
+the numbers are written ``1,25``), and the header (a first line with fewer numbers than
+the next; an optional second line of units).  Any of them can be given instead.
+
+The fast path parses with ``pandas.read_csv``; without pandas, or when pandas reports a
+problem, a plain-Python scanner reads the file line by line, and that scanner is what
+names the bad line, column and cell in the error message.
+"""
+
+from __future__ import annotations
+
+import csv
+import re
+from dataclasses import dataclass, field
+from pathlib import Path
+
+import numpy as np
+
+from .._errors import InputError
+from ._signal import format_positions
+
+__all__ = ["Dialect", "TextTable", "sniff", "read_text", "column_is_text", "split_unit"]
+
+_SNIFF_BYTES = 1 << 18
+_SNIFF_LINES = 200
+_COMMENTS = ("#", "%")
+_DELIMITERS = (";", "\t", ",", "|")  # order of preference when several fit
+_DELIMITER_NAMES = {";": "';'", "\t": "tab", ",": "','", "|": "'|'", None: "spaces"}
+# Cells read as missing (NaN) by both parsers.
+MISSING = ("", "nan", "NaN", "NAN", "-nan", "NA", "N/A", "n/a", "null", "NULL", "None", "#N/A")
+_MISSING_SET = frozenset(MISSING)
+_UNIT_RE = re.compile(r"^(?P<name>.*?)\s*[\[(](?P<unit>[^\[\]()]*)[\])]\s*$")
+_DECIMAL_COMMA_RE = re.compile(r"^[+-]?\d*,\d+(?:[eE][+-]?\d+)?$")
+_DECIMAL_POINT_RE = re.compile(r"^[+-]?\d*\.\d+(?:[eE][+-]?\d+)?$")
+
+
+@dataclass(frozen=True)
+class Dialect:
+    """How a text table is written (found by :func:`sniff` or given by the user)."""
+
+    encoding: str
+    delimiter: str | None  # None: runs of whitespace
+    decimal: str
+    comment: str | None
+    skip: int  # physical lines before the first data line
+    names: tuple[str, ...] | None  # None: no header
+    units: tuple[str, ...] | None
+    n_fields: int
+
+    def describe(self) -> str:
+        parts = [f"delimiter {_DELIMITER_NAMES.get(self.delimiter, repr(self.delimiter))}"]
+        if self.decimal != ".":
+            parts.append(f"decimal {self.decimal!r}")
+        parts.append("header" if self.names else "no header")
+        if self.comment:
+            parts.append(f"comments {self.comment!r}")
+        return ", ".join(parts)
+
+
+@dataclass
+class TextTable:
+    """Parsed columns of a text file: ``columns[j]`` is a float64 array or, for a column
+    that is not numeric (dates), an object array of strings."""
+
+    dialect: Dialect
+    columns: list[np.ndarray]
+    path: Path
+    _lines: np.ndarray | None = field(default=None, repr=False)
+
+    @property
+    def n_rows(self) -> int:
+        return len(self.columns[0]) if self.columns else 0
+
+    def line(self, row: int) -> int:
+        """1-based line number in the file of data row ``row``."""
+        if self._lines is None:
+            self._lines = _data_line_numbers(self.path, self.dialect)
+        return int(self._lines[row])
+
+    def where(self, row: int) -> str:
+        return f"line {self.line(row)} of {self.path.name}"
+
+
+def split_unit(name: str) -> tuple[str, str]:
+    """``"accel [m/s^2]"`` -> ``("accel", "m/s^2")``; a name without a bracket keeps it."""
+    m = _UNIT_RE.match(name)
+    if m and m.group("name"):
+        return m.group("name").strip(), m.group("unit").strip()
+    return name.strip(), ""
+
+
+# -- detection ------------------------------------------------------------------------
+def sniff(path: Path, *, delimiter: str | None = None, decimal: str | None = None,
+          comment: str | None = None) -> Dialect:
+    """Find the dialect of the text file at ``path`` from its first lines."""
+    head = _read_head(path)
+    encoding, text = _decode(head, path)
+    lines = text.replace("\r\n", "\n").replace("\r", "\n").split("\n")
+    if len(head) == _SNIFF_BYTES and lines:
+        lines = lines[:-1]  # the last line may be cut
+    if comment is None:
+        starts = {ln.lstrip()[:1] for ln in lines if ln.strip()}
+        comment = next((c for c in _COMMENTS if c in starts), None)
+    meaningful = [(i, ln) for i, ln in enumerate(lines[:_SNIFF_LINES * 4])
+                  if ln.strip() and not (comment and ln.lstrip().startswith(comment))]
+    if not meaningful:
+        what = "is empty" if not text.strip() else "holds only comment lines"
+        raise InputError(
+            f"{path.name} {what}: there is no row of data to load. Check that the file "
+            "was exported completely."
+        )
+    sample = [ln for _, ln in meaningful[:_SNIFF_LINES]]
+    if delimiter is None:
+        delimiter = _find_delimiter(sample)
+    elif delimiter in (" ", r"\s+"):
+        delimiter = None
+    rows = [_split(ln, delimiter) for ln in sample]
+    if decimal is None:
+        decimal = _find_decimal(rows, delimiter)
+    numeric = [sum(_is_number(c, decimal) for c in r) for r in rows]
+    header_rows = 0
+    if len(rows) > 1 and numeric[0] < numeric[1]:
+        header_rows = 1
+        if len(rows) > 2 and numeric[1] == 0 and numeric[2] > 0 and len(rows[1]) == len(rows[0]):
+            header_rows = 2  # a line of units below the names
+    elif len(rows) == 1 and numeric[0] == 0:
+        header_rows = 1
+    data_rows = rows[header_rows:]
+    if not data_rows:
+        names = ", ".join(repr(c) for c in rows[0][:6])
+        raise InputError(
+            f"{path.name} has a header ({names}) but no data rows. Check that the export "
+            "finished; a spectrum needs samples below the header."
+        )
+    if max(numeric[header_rows:]) == 0:
+        first = meaningful[header_rows][0] + 1
+        raise InputError(
+            f"{path.name} does not look like a table of numbers: line {first} reads "
+            f"{_clip(sample[header_rows])!r}, with no number in it "
+            f"(delimiter {_DELIMITER_NAMES.get(delimiter, repr(delimiter))}, decimal "
+            f"{decimal!r}). Load a delimited file of numbers (CSV, TSV), or give "
+            "delimiter=/decimal= if the detection is wrong, or format= for a binary file."
+        )
+    n_fields = len(data_rows[0])
+    names = units = None
+    if header_rows:
+        fields = rows[0]
+        if len(fields) != n_fields:
+            raise InputError(
+                f"{path.name}: the header on line {meaningful[0][0] + 1} has {len(fields)} "
+                f"fields but the first data line {meaningful[header_rows][0] + 1} has "
+                f"{n_fields} (delimiter {_DELIMITER_NAMES.get(delimiter, repr(delimiter))}). "
+                "Make them agree, or give delimiter= if the detection is wrong."
+            )
+        pairs = [split_unit(f) for f in fields]
+        names = tuple(n or f"col{j}" for j, (n, _) in enumerate(pairs))
+        units = tuple(u for _, u in pairs)
+        if header_rows == 2:
+            units = tuple(u.strip("[]() ") for u in rows[1])
+    skip = meaningful[header_rows][0]
+    return Dialect(encoding, delimiter, decimal, comment, skip, names, units, n_fields)
+
+
+def _read_head(path: Path) -> bytes:
+    with open(path, "rb") as f:
+        head = f.read(_SNIFF_BYTES)
+    if b"\x00" in head[:4096]:
+        raise InputError(
+            f"{path.name} is not a text file (it holds NUL bytes). For binary data pass "
+            "format='raw' with dtype= and fs=, or use .npy/.wav/.h5 files."
+        )
+    return head
+
+
+def _decode(head: bytes, path: Path) -> tuple[str, str]:
+    for encoding in ("utf-8-sig", "cp1252"):
+        try:
+            return encoding, head.decode(encoding)
+        except UnicodeDecodeError as exc:
+            if encoding == "utf-8-sig" and exc.start >= len(head) - 3:
+                return encoding, head[:exc.start].decode(encoding)  # a cut multibyte char
+    return "latin-1", head.decode("latin-1")
+
+
+def _find_delimiter(sample: list[str]) -> str | None:
+    for cand in _DELIMITERS:
+        counts = [_count_fields(ln, cand) for ln in sample]
+        if counts[0] > 1 and _consistent(counts):
+            return cand
+    counts = [len(ln.split()) for ln in sample]
+    if counts[0] > 1 and _consistent(counts):
+        return None
+    return ","  # one column (or ragged rows, which the parser then reports)
+
+
+def _count_fields(line: str, delimiter: str) -> int:
+    return len(next(csv.reader([line], delimiter=delimiter))) if delimiter in line else 1
+
+
+def _consistent(counts: list[int]) -> bool:
+    return sum(c == counts[0] for c in counts) >= 0.9 * len(counts)
+
+
+def _split(line: str, delimiter: str | None) -> list[str]:
+    if delimiter is None:
+        return line.split()
+    return [c.strip() for c in next(csv.reader([line], delimiter=delimiter))]
+
+
+def _find_decimal(rows: list[list[str]], delimiter: str | None) -> str:
+    if delimiter == ",":
+        return "."
+    cells = [c for r in rows[1:] for c in r]
+    comma = sum(bool(_DECIMAL_COMMA_RE.match(c)) for c in cells)
+    point = sum(bool(_DECIMAL_POINT_RE.match(c)) for c in cells)
+    return "," if comma > point else "."
+
+
+def _is_number(cell: str, decimal: str) -> bool:
+    return _to_float(cell, decimal) is not None
+
+
+def _to_float(cell: str, decimal: str) -> float | None:
+    text = cell.strip()
+    if decimal != ".":
+        if "." in text:
+            return None
+        text = text.replace(decimal, ".")
+    try:
+        return float(text)
+    except ValueError:
+        return None
+
+
+def _clip(text: str, n: int = 60) -> str:
+    return text if len(text) <= n else text[:n - 3] + "..."
+
+
+# -- parsing ----------------------------------------------------------------------------
+def column_is_text(path: Path, dialect: Dialect, j: int) -> bool:
+    """True when column ``j`` holds text (such as dates) on the first data line."""
+    with open(path, encoding=dialect.encoding, newline="") as f:
+        for number, line in enumerate(f):
+            if number < dialect.skip or not line.strip():
+                continue
+            if dialect.comment and line.lstrip().startswith(dialect.comment):
+                continue
+            cells = _split(line.rstrip("\r\n"), dialect.delimiter)
+            return j < len(cells) and not _is_number(cells[j], dialect.decimal)
+    return False
+
+
+def read_text(path: Path, dialect: Dialect, *, text_columns: tuple[int, ...] = ()) -> TextTable:
+    """Parse the whole file into float columns (``text_columns`` may hold dates)."""
+    try:
+        import pandas  # noqa: F401
+    except ImportError:
+        columns = _scan(path, dialect, text_columns)
+    else:
+        columns = _read_pandas(path, dialect, text_columns)
+    table = TextTable(dialect, columns, path)
+    if table.n_rows == 0:
+        raise InputError(f"{path.name} has a header but no data rows. Check that the export "
+                         "finished; a spectrum needs samples below the header.")
+    return table
+
+
+def _read_pandas(path: Path, dialect: Dialect, text_columns: tuple[int, ...]) -> list[np.ndarray]:
+    import pandas as pd
+
+    kwargs = dict(
+        sep=r"\s+" if dialect.delimiter is None else dialect.delimiter,
+        decimal=dialect.decimal, comment=dialect.comment, header=None,
+        skiprows=dialect.skip, names=list(range(dialect.n_fields)),
+        na_values=list(MISSING), keep_default_na=False, skip_blank_lines=True,
+        encoding=dialect.encoding, engine="c",
+        dtype={j: str for j in text_columns} or None,
+    )
+    if int(pd.__version__.split(".")[0]) < 3:
+        kwargs["float_precision"] = "round_trip"  # the default of pandas >= 3
+    try:
+        frame = pd.read_csv(path, **kwargs)
+    except (pd.errors.ParserError, ValueError, UnicodeDecodeError) as exc:
+        _scan(path, dialect, text_columns)  # names the line and raises, as a rule
+        raise InputError(f"{path.name} could not be read as a table ({dialect.describe()}): "
+                         f"{exc}. Give delimiter=, decimal= or comment= if the detection "
+                         "is wrong.") from exc
+    columns = []
+    for j in range(dialect.n_fields):
+        col = frame[j]
+        if j in text_columns:
+            columns.append(col.to_numpy(dtype=object))
+        elif col.dtype.kind in "iufb":
+            columns.append(col.to_numpy(dtype=np.float64))
+        else:  # a cell pandas could not read as a number: find it the slow, precise way
+            return _scan(path, dialect, text_columns)
+    if frame.shape[0] and _has_ragged_short_rows(frame, dialect, text_columns):
+        return _scan(path, dialect, text_columns)
+    return columns
+
+
+def _has_ragged_short_rows(frame, dialect: Dialect, text_columns: tuple[int, ...]) -> bool:
+    """pandas fills a row with too few fields with NaN; the last column then holds NaN."""
+    last = frame[dialect.n_fields - 1]
+    return bool(last.isna().any())
+
+
+def _scan(path: Path, dialect: Dialect, text_columns: tuple[int, ...]) -> list[np.ndarray]:
+    """Read the file line by line; raise :class:`InputError` at the first bad line."""
+    n = dialect.n_fields
+    values: list[list] = [[] for _ in range(n)]
+    with open(path, encoding=dialect.encoding, newline="") as f:
+        for number, line in enumerate(f, start=1):
+            if number <= dialect.skip:
+                continue
+            text = line.rstrip("\r\n")
+            if dialect.comment and dialect.comment in text:
+                text = text[:text.index(dialect.comment)]
+            if not text.strip():
+                continue
+            cells = _split(text, dialect.delimiter)
+            if len(cells) != n:
+                raise InputError(
+                    f"{path.name}: line {number} has {len(cells)} field"
+                    f"{'s' if len(cells) != 1 else ''} but the table has {n} "
+                    f"({_header_text(dialect)}): {_clip(text)!r}. Repair or remove the "
+                    "ragged line (a cut-off last line is a common cause)."
+                )
+            for j, cell in enumerate(cells):
+                if j in text_columns:
+                    values[j].append(cell)
+                    continue
+                x = _to_float(cell, dialect.decimal)
+                if x is None:
+                    if cell.strip() not in _MISSING_SET:
+                        raise InputError(
+                            f"{path.name}: line {number}, column {_column_name(dialect, j)}, "
+                            f"holds {cell!r}, which is not a number (decimal mark "
+                            f"{dialect.decimal!r}). Repair the cell, or choose the numeric "
+                            "columns with channels=[...]."
+                        )
+                    x = np.nan
+                values[j].append(x)
+    return [np.asarray(v, dtype=object if j in text_columns else np.float64)
+            for j, v in enumerate(values)]
+
+
+def _column_name(dialect: Dialect, j: int) -> str:
+    if dialect.names:
+        return repr(dialect.names[j])
+    return f"{j + 1}"
+
+
+def _header_text(dialect: Dialect) -> str:
+    if dialect.names:
+        return "header " + ", ".join(repr(c) for c in dialect.names[:6]) + (
+            ", ..." if len(dialect.names) > 6 else "")
+    return "first data line"
+
+
+def _data_line_numbers(path: Path, dialect: Dialect) -> np.ndarray:
+    numbers = []
+    with open(path, encoding=dialect.encoding, newline="") as f:
+        for number, line in enumerate(f, start=1):
+            if number <= dialect.skip:
+                continue
+            text = line
+            if dialect.comment and dialect.comment in text:
+                text = text[:text.index(dialect.comment)]
+            if text.strip():
+                numbers.append(number)
+    return np.asarray(numbers, dtype=np.int64)
+
+
+def describe_cells(table: TextTable, column: int, rows: np.ndarray) -> str:
+    """``"line 12 ('nan'), line 40 ('')"`` for the first few rows (for messages)."""
+    return format_positions([f"line {table.line(int(r))}" for r in rows])
