@@ -30,8 +30,10 @@ class Estimator:
     #: one line for menus
     title: ClassVar[str] = ""
 
-    def __init_subclass__(cls, **kwargs: Any) -> None:
+    def __init_subclass__(cls, abstract: bool = False, **kwargs: Any) -> None:
         super().__init_subclass__(**kwargs)
+        if abstract:
+            return
         if "kind" not in cls.__dict__ or not cls.__dict__["kind"]:
             cls.kind = cls.__name__
         _REGISTRY[cls.kind] = cls

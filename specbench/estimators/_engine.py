@@ -160,7 +160,7 @@ def trend_coefficients(x: np.ndarray, detrend: str) -> tuple[np.ndarray, np.ndar
         return zero, zero
     s1 = np.zeros(c)
     st = np.zeros(c)
-    chunk = 1 << 20
+    chunk = 1 << 16
     for t0 in range(0, n, chunk):
         seg = np.asarray(x[:, t0 : t0 + chunk], dtype=np.float64)
         s1 += seg.sum(axis=-1)
@@ -226,7 +226,7 @@ def detrended_variance(x: np.ndarray, detrend: str) -> np.ndarray:
     Complex data: the mean square of the modulus (a linear trend is not removed).
     """
     c, n = x.shape
-    chunk = 1 << 20
+    chunk = 1 << 16
     cplx = np.iscomplexobj(x)
     dt = np.complex128 if cplx else np.float64
     # shift by a rough mean first, so the one-pass sums do not cancel for large offsets

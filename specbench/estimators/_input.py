@@ -88,7 +88,7 @@ def as_samples(x: Any, fs: Any = None, *, min_samples: int = 2) -> Samples:
         source = obj
         fs_value = sig_fs
     else:
-        if isinstance(obj, (list, tuple)):
+        if isinstance(obj, (list, tuple, np.generic, int, float, complex)):
             obj = np.asarray(obj)
         if not isinstance(obj, np.ndarray):
             raise InputError(

@@ -56,7 +56,7 @@ __all__ = ["Welch", "Periodogram", "Multitaper", "Correlogram", "SpectralEstimat
 
 
 @dataclass(frozen=True, kw_only=True, repr=False)
-class SpectralEstimator(Estimator):
+class SpectralEstimator(Estimator, abstract=True):
     """Common behaviour of the PSD estimators: call on data, get a :class:`Spectrum`."""
 
     #: the estimator leaves some trailing samples out (segments) -> reported in info
@@ -74,7 +74,8 @@ class SpectralEstimator(Estimator):
         """
         samples, x2 = samples_of(x, fs)
         onesided = onesided_for(self.sides, x2, type(self).__name__)
-        with Timer() as t:
+        # non-finite samples surface as a non-finite result, reported below with their place
+        with Timer() as t, np.errstate(invalid="ignore", over="ignore"):
             parts = self._estimate(x2, samples.fs, onesided)
         value = parts.pop("value")
         check_finite_result(value, x2, type(self).__name__, parts.pop("limit"))
@@ -245,10 +246,12 @@ class Welch(SpectralEstimator):
     >>> rng = np.random.default_rng(0)
     >>> x = rng.standard_normal(100_000)            # unit variance, fs = 1 kHz
     >>> spec = sb.Welch(segment_length=1024)(x, fs=1000.0)
-    >>> print(f"{np.median(spec.value):.4f} (V^2/Hz)")  # white level 2 sigma^2 / fs
-    0.0020 (V^2/Hz)
-    >>> print(f"{spec.dof[5]:.1f} degrees of freedom")
-    343.6 degrees of freedom
+    >>> print(f"{np.median(spec.value):.4f} V^2/Hz")  # white level 2 sigma^2 / fs
+    0.0020 V^2/Hz
+    >>> print(f"{spec.segments} segments, {spec.dof[5]:.1f} degrees of freedom")  # 36 N^2/(19 N - 1)
+    194 segments, 367.7 degrees of freedom
+    >>> print(f"RMS from the spectrum {np.sqrt(spec.value.sum() * spec.df):.3f}, from the samples {x.std():.3f}")
+    RMS from the spectrum 0.999, from the samples 1.000
     """
 
     title: ClassVar[str] = "Welch (averaged segments)"

@@ -1,0 +1,78 @@
+"""Physical scaling: white-noise level, Parseval, on-bin tone amplitude, views."""
+
+import numpy as np
+import pytest
+
+import specbench as sb
+
+FS = 2000.0
+N = 2**17
+RNG = np.random.default_rng(7)
+SIGMA = 0.3
+WHITE = RNG.standard_normal(N) * SIGMA
+
+ESTIMATORS = [
+    sb.Welch(segment_length=1024),
+    sb.Welch(segment_length=1024, window="blackmanharris", overlap=0.75),
+    sb.Periodogram(window="hann"),
+    sb.Multitaper(segment_length=4096),
+    sb.Multitaper(segment_length=4096, adaptive=False),
+    sb.Correlogram(max_lag=128),
+]
+
+
+@pytest.mark.parametrize("est", ESTIMATORS, ids=repr)
+def test_white_noise_level_is_two_sigma2_over_fs(est):
+    # Discrete white noise of variance sigma^2 at fs: one-sided density 2 sigma^2 / fs
+    # (Percival & Walden 1993; from memory)
+    spec = est(WHITE, fs=FS)
+    inner = spec.value[5:-5]
+    assert np.mean(inner) == pytest.approx(2 * SIGMA**2 / FS, rel=0.02)
+
+
+@pytest.mark.parametrize("est", ESTIMATORS, ids=repr)
+def test_parseval_integral_equals_variance(est):
+    # integral of the one-sided density = variance of the detrended data (common practice)
+    spec = est(WHITE + 5.0, fs=FS)
+    assert spec.parseval_ratio() == pytest.approx(1.0, abs=0.02)
+    assert spec.variance == pytest.approx(np.var(WHITE), rel=1e-9)
+
+
+@pytest.mark.parametrize("window", ["boxcar", "hann", "flattop", ("kaiser", 12.0), "blackmanharris"])
+def test_on_bin_sine_reads_a_squared_over_two(window):
+    # a sine of amplitude A on a bin gives a power-spectrum peak of A^2/2 for any window
+    # (common practice; REFERENCES.md "Scaling checks")
+    nperseg, amp = 1024, 3.0
+    f0 = 100 * FS / nperseg
+    t = np.arange(N) / FS
+    x = amp * np.sin(2 * np.pi * f0 * t)
+    spec = sb.Welch(window=window, segment_length=nperseg, scaling="spectrum")(x, fs=FS)
+    # (Kaiser beta=12 leaks ~1e-7 from the negative-frequency image: still A^2/2 to 1e-6)
+    assert spec.value.max() == pytest.approx(amp**2 / 2, rel=1e-6)
+    assert spec.freq[np.argmax(spec.value)] == pytest.approx(f0)
+    dens = sb.Welch(window=window, segment_length=nperseg)(x, fs=FS)
+    power = dens.view("power")[0]
+    assert power.max() == pytest.approx(amp**2 / 2, rel=1e-6)
+
+
+def test_views_transform_estimate_and_band_together():
+    spec = sb.Welch(segment_length=256)(WHITE, fs=FS)
+    v, lo, hi, unit = spec.view("asd")
+    np.testing.assert_allclose(v**2, spec.value)
+    np.testing.assert_allclose(lo**2, spec.lower)
+    db, dlo, dhi, dunit = spec.view("db")
+    np.testing.assert_allclose(10 ** (db / 10), spec.value)
+    np.testing.assert_allclose(dhi - dlo, 10 * np.log10(spec.upper / spec.lower))
+    assert unit == "1/√Hz" and dunit == "dB re 1 1/Hz"
+    assert spec.band_db() == pytest.approx(float(np.median(dhi - dlo)), rel=1e-9)
+
+
+def test_units_follow_the_signal():
+    sig = type("S", (), dict(data=WHITE[None, :], fs=FS, channels=("ax",), unit="m/s^2"))()
+    spec = sb.Welch()(sig)
+    assert spec.unit == "(m/s^2)^2/Hz"
+    assert spec.view("asd")[3] == "m/s^2/√Hz"
+    assert sb.Welch(scaling="spectrum")(sig).unit == "(m/s^2)^2"
+    assert spec.channels == ("ax",)
+    sig_v = type("S", (), dict(data=WHITE[None, :], fs=FS, channels=("v",), unit="V"))()
+    assert sb.Welch()(sig_v).unit == "V^2/Hz"
