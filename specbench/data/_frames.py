@@ -65,7 +65,7 @@ def from_pandas(
     index = frame.index
 
     def where(i: int) -> str:
-        return f"row {i} (index {index[i]!r}) of {label}"
+        return f"row {i} (index {index[i]}) of {label}"
 
     tj, tunit, tvalues, tlabel = None, "", None, ""
     if isinstance(time_column, str):

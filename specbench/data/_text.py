@@ -123,12 +123,10 @@ def sniff(path: Path, *, delimiter: str | None = None, decimal: str | None = Non
         decimal = _find_decimal(rows, delimiter)
     numeric = [sum(_is_number(c, decimal) for c in r) for r in rows]
     header_rows = 0
-    if len(rows) > 1 and numeric[0] < numeric[1]:
+    if numeric[0] == 0 or (len(rows) > 1 and numeric[0] < numeric[1]):
         header_rows = 1
         if len(rows) > 2 and numeric[1] == 0 and numeric[2] > 0 and len(rows[1]) == len(rows[0]):
             header_rows = 2  # a line of units below the names
-    elif len(rows) == 1 and numeric[0] == 0:
-        header_rows = 1
     data_rows = rows[header_rows:]
     if not data_rows:
         names = ", ".join(repr(c) for c in rows[0][:6])

@@ -254,13 +254,14 @@ def _raise_gap(axis: TimeAxis, fs: float, steps: np.ndarray, gaps: np.ndarray,
                n_missing: int) -> None:
     big = int(gaps[np.argmax(steps[gaps])])
     missing = int(steps[big] - 1)
-    others = format_positions([axis.row(int(g)) for g in gaps[:6]])
+    others = (f" Gaps follow {format_positions([axis.row(int(g)) for g in gaps[:6]])}."
+              if gaps.size > 1 else "")
     raise InputError(
         f"The {axis.label} has {gaps.size} gap{'s' if gaps.size != 1 else ''} "
         f"({n_missing} missing sample{'s' if n_missing != 1 else ''} at {fs:.10g} Hz). The "
         f"largest follows {axis.stamp(big)} at {axis.row(big)}: {missing} sample"
         f"{'s' if missing != 1 else ''} ({missing / fs:.6g} s) missing before "
-        f"{axis.stamp(big + 1)}. Gaps after: {others}. Pass on_gap='fill' to put NaN at "
+        f"{axis.stamp(big + 1)}.{others} Pass on_gap='fill' to put NaN at "
         "the missing sample positions (then estimate with sb.Welch(gaps='skip'), which "
         "leaves out the segments that touch them), or pass fs= explicitly if the median "
         "interval is not the sample interval."
