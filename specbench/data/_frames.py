@@ -168,8 +168,7 @@ def from_xarray(
     other = [d for d in dims if d != dim]
     arr = obj.transpose(*other, dim)
     if other:
-        coord = arr.coords.get(other[0])
-        names = ([str(v) for v in coord.values] if coord is not None
+        names = ([str(v) for v in arr.coords[other[0]].values] if other[0] in arr.coords
                  else [f"ch{i}" for i in range(arr.shape[0])])
     else:
         names = [str(obj.name) if obj.name is not None else "ch0"]
