@@ -123,7 +123,7 @@ def test_from_dict_rejects_bad_descriptions():
 
 
 def test_cross_field_rules():
-    with pytest.raises(sb.SettingsError, match=r"'nfft' parameter of Welch must be None or an integer >= segment_length"):
+    with pytest.raises(sb.SettingsError, match=r"'nfft' parameter of Welch must be None or an integer >= segment"):
         sb.Welch(segment_length=1024, nfft=512)
     with pytest.raises(sb.SettingsError, match=r"'tapers' parameter of Multitaper .* \[1, 5\] \(2NW\)"):
         sb.Multitaper(bandwidth=2.5, tapers=6)
