@@ -132,15 +132,25 @@ def _specbench_body(state: FreezeState) -> str:
     sig = "sig" if state.data_name != "sig" else "signal"
     out = ["import specbench as sb", ""]
     out += data_lines(state, sig)
-    out.append(f"psd_estimator = sb.{state.estimator!r}")
+    out.append(_constructor("psd_estimator", state.estimator))
     acf = state.correlation_estimator
     if acf is not None:
-        out.append(f"acf_estimator = sb.{acf!r}")
+        out.append(_constructor("acf_estimator", acf))
     out.append("")
     out.append(f"spectrum = psd_estimator({sig})")
     if acf is not None:
         out.append(f"correlation = acf_estimator({sig})")
     return "\n".join(out) + "\n"
+
+
+def _constructor(var: str, est: Any) -> str:
+    """``var = sb.Welch(...)``: the estimator's repr (non-default fields only), wrapped when long."""
+    line = f"{var} = sb.{est!r}"
+    if len(line) <= LINE:
+        return line
+    name = type(est).__name__
+    args = [f"{k}={v!r}" for k, v in est.changed_fields().items()]
+    return f"{var} = sb.{name}(\n" + "".join(f"    {a},\n" for a in args) + ")"
 
 
 def data_lines(state: FreezeState, var: str) -> list[str]:
@@ -161,6 +171,9 @@ def data_lines(state: FreezeState, var: str) -> list[str]:
         name = state.data_name
         built = call("sb.Signal", _Name(name), **kwargs)
         first = f"{var} = {name} if isinstance({name}, sb.Signal) else {built}"
+        if len(first) > LINE:
+            args = built[len("sb.Signal(") : -1]
+            first = f"{var} = {name} if isinstance({name}, sb.Signal) else sb.Signal(\n    {args}\n)"
     if not chain:
         return [first]
     if len(first) + len(chain) <= LINE and made is not None:

@@ -95,7 +95,11 @@ def _data_lines(state: FreezeState, var: str) -> list[str]:
         what.append(f"{state.span[0]:.9g} s to {state.span[1]:.9g} s")
     sel = f"[{', '.join(index)}]" if index else ""
     comment = ", ".join(what + ["shape (channels, samples)"])
-    out.append(f"{var} = np.atleast_2d({name}){sel}  # {comment}")
+    line = f"{var} = np.atleast_2d({name}){sel}  # {comment}"
+    if len(line) > 88:
+        out.append(f"# {comment}")
+        line = f"{var} = np.atleast_2d({name}){sel}"
+    out.append(line)
     if analysed.data.dtype == np.float32 or analysed.data.dtype == np.complex64:
         out += wrap_comment(
             f"{var} is single precision: specbench transforms its segments in single precision and "
@@ -107,7 +111,7 @@ def _data_lines(state: FreezeState, var: str) -> list[str]:
 def _finite_check(var: str, owner: str) -> list[str]:
     return [
         f"if not np.all(np.isfinite({var})):",
-        f'    raise ValueError("The data has NaN or inf samples; {owner} does not estimate through them.")',
+        f'    raise ValueError("NaN or inf samples: {owner} does not estimate through them.")',
     ]
 
 
@@ -131,7 +135,7 @@ def _edge_lines(onesided: bool, real: bool, nfft: int | None) -> list[str]:
 def _band_lines(confidence: float) -> list[str]:
     return [
         "",
-        "# Confidence band: chi-square with dof degrees of freedom (Percival & Walden 1993, ch. 6)",
+        "# Confidence band: chi-square, dof degrees of freedom (Percival & Walden 1993, ch. 6)",
         f"alpha = 1.0 - {py(confidence)}",
         "lower = psd * (dof / scipy.stats.chi2.ppf(1 - alpha / 2, dof))",
         "upper = psd * (dof / scipy.stats.chi2.ppf(alpha / 2, dof))",
@@ -144,7 +148,8 @@ def _shift_lines(onesided: bool) -> list[str]:
     return [
         "",
         "# Two-sided: ascending frequencies from -fs/2, as specbench reports them",
-        "freq, psd, dof, lower, upper = (np.fft.fftshift(a, axes=-1) for a in (freq, psd, dof, lower, upper))",
+        "freq = np.fft.fftshift(freq)",
+        "psd, dof, lower, upper = (np.fft.fftshift(a, axes=-1) for a in (psd, dof, lower, upper))",
     ]
 
 
@@ -220,7 +225,7 @@ def _welch(est: Welch, var: str, onesided: bool, real: bool) -> list[str]:
         f"# PSD: Welch's method, {est.average} of overlapping segments",
         f"nperseg, noverlap, nfft = {est.segment_length}, {est.noverlap}, {nfft}",
         "step = nperseg - noverlap",
-        f"w = scipy.signal.get_window({window}, nperseg)  # periodic (DFT-even) window",
+        f"w = scipy.signal.get_window({window}, nperseg)  # periodic (DFT-even)",
     ]
     if est.gaps == "skip":
         body = _welch_skip(est, var, onesided, nfft)
@@ -229,8 +234,8 @@ def _welch(est: Welch, var: str, onesided: bool, real: bool) -> list[str]:
         body = _finite_check(var, "Welch(gaps='error')") + [
             "freq, psd = scipy.signal.welch(",
             f"    {var}, fs=fs, window=w, nperseg=nperseg, noverlap=noverlap, nfft=nfft,",
-            f"    detrend={_scipy_detrend(est.detrend)}, return_onesided={onesided}, "
-            f"scaling={est.scaling!r}, average={est.average!r}, axis=-1,",
+            f"    detrend={_scipy_detrend(est.detrend)}, return_onesided={onesided}, scaling={est.scaling!r},",
+            f"    average={est.average!r}, axis=-1,",
             ")",
         ]
         dof = _welch_dof_lines(var, masked=False)
@@ -241,7 +246,7 @@ def _welch(est: Welch, var: str, onesided: bool, real: bool) -> list[str]:
 
 def _welch_skip(est: Welch, var: str, onesided: bool, nfft: int) -> list[str]:
     fft = "scipy.fft.rfft" if onesided else "scipy.fft.fft"
-    seg = _detrend_expr(est.detrend, f"{var}[:, s : s + nperseg]")
+    seg = _detrend_expr(est.detrend, "seg")
     lines = [
         "# gaps='skip': leave out the segments that touch a NaN or inf sample (no scipy.signal.welch",
         "# equivalent, so the average is written out)",
@@ -254,7 +259,9 @@ def _welch_skip(est: Welch, var: str, onesided: bool, nfft: int) -> list[str]:
         '    raise ValueError("Every segment touches a NaN or inf sample; nothing is left to average.")',
         "powers = []",
         "for s in starts[used]:",
-        f"    spec = {fft}({seg} * w, n=nfft, axis=-1)",
+        f"    seg = {var}[:, s : s + nperseg]",
+        *([] if est.detrend == "none" else [f"    seg = {seg}"]),
+        f"    spec = {fft}(seg * w, n=nfft, axis=-1)",
         "    powers.append(spec.real**2 + spec.imag**2)",
     ]
     if est.average == "mean":
@@ -285,8 +292,7 @@ def _periodogram(est: Periodogram, var: str, onesided: bool, real: bool) -> list
         lines += [
             f"nfft = {est.nfft}",
             f"if nfft < {var}.shape[-1]:",
-            f'    raise ValueError(f"nfft = {{nfft}} is shorter than the {{{var}.shape[-1]}} samples; '
-            'the periodogram never truncates data.")',
+            '    raise ValueError("nfft is shorter than the record; the periodogram never truncates data.")',
         ]
     lines += _finite_check(var, "Periodogram")
     lines += [
@@ -310,8 +316,8 @@ def _multitaper(est: Multitaper, var: str, onesided: bool, real: bool) -> list[s
     fft = "scipy.fft.rfft" if onesided else "scipy.fft.fft"
     lines = [
         "",
-        f"# PSD: Thomson's multitaper method, {k} DPSS taper{'s' if k != 1 else ''} of time-half-bandwidth "
-        f"NW = {est.bandwidth:g}" + (", adaptive weights" if adaptive else ", equal weights"),
+        f"# PSD: Thomson's multitaper method, {k} DPSS taper{'s' if k != 1 else ''}, NW = {est.bandwidth:g}, "
+        + ("adaptive weights" if adaptive else "equal weights"),
         "# (Thomson 1982; Percival & Walden 1993, eqs. (368a), (370a))",
         f"nw, k = {py(est.bandwidth)}, {k}",
     ]
@@ -326,8 +332,10 @@ def _multitaper(est: Multitaper, var: str, onesided: bool, real: bool) -> list[s
         "used = nseg * seg",
         "tapers, ratios = scipy.signal.windows.dpss(seg, nw, Kmax=k, sym=True, norm=2, return_ratios=True)",
         "tapers, ratios = np.atleast_2d(tapers), np.atleast_1d(ratios)",
-        f"blocks = {_detrend_expr(est.detrend, f'{var}[:, :used].reshape({var}.shape[0], nseg, seg)')}",
-        "# eigenspectra (channels, tapers, frequencies): mean over segments of |FFT(taper * segment)|^2, per Hz",
+        f"blocks = {var}[:, :used].reshape({var}.shape[0], nseg, seg)",
+        *([] if est.detrend == "none" else [f"blocks = {_detrend_expr(est.detrend, 'blocks')}  # each segment"]),
+        "# eigenspectra sk (channels, tapers, frequencies), per Hz:",
+        "# the mean over segments of |FFT(taper * segment)|^2",
         "sk = []",
         "for h in tapers:",
         f"    spec = {fft}(blocks * h, n=nfft, axis=-1)",
@@ -339,7 +347,8 @@ def _multitaper(est: Multitaper, var: str, onesided: bool, real: bool) -> list[s
         lines += [
             "",
             "# Adaptive weights b_k, iterated to convergence; sigma^2 is the detrended data's variance",
-            f"variance = np.mean(np.abs({_detrend_expr(vkind, f'{var}[:, :used]')}) ** 2, axis=-1)",
+            f"xv = {_detrend_expr(vkind, f'{var}[:, :used]')}",
+            "variance = np.mean(np.abs(xv) ** 2, axis=-1)",
             "lam = ratios[None, :, None]",
             "broad = (1 - lam) * variance[:, None, None] / fs",
             "s = sk[:, :2].mean(axis=1, keepdims=True)",
@@ -362,7 +371,7 @@ def _multitaper(est: Multitaper, var: str, onesided: bool, real: bool) -> list[s
     if est.scaling == "spectrum":
         lines += [
             "sums = tapers.sum(axis=1)",
-            "psd = psd * (fs * k / np.dot(sums, sums))  # power spectrum: density times the tapers' ENBW (Hz)",
+            "psd = psd * (fs * k / np.dot(sums, sums))  # power spectrum: density x the tapers' ENBW (Hz)",
         ]
     if onesided:
         lines += _fold_lines(None)
@@ -379,9 +388,10 @@ def _autocovariance_lines(var: str, detrend: str) -> list[str]:
     return [
         f"n = {var}.shape[-1]",
         f"xd = {_detrend_expr(detrend, var)}",
-        "nfft_r = scipy.fft.next_fast_len(n + m, real=True)  # long enough for no circular wrap-around",
+        "nfft_r = scipy.fft.next_fast_len(n + m, real=True)  # no circular wrap-around",
         "spec = scipy.fft.rfft(xd, n=nfft_r, axis=-1)",
-        "s = scipy.fft.irfft(spec.real**2 + spec.imag**2, n=nfft_r, axis=-1)[:, : m + 1]  # sum_t x_t x_(t+k)",
+        "# s_k = sum_t x_t x_(t+k), k = 0..m",
+        "s = scipy.fft.irfft(spec.real**2 + spec.imag**2, n=nfft_r, axis=-1)[:, : m + 1]",
     ]
 
 
@@ -408,7 +418,7 @@ def _correlogram(est: Correlogram, var: str, onesided: bool, real: bool) -> list
         lines.append("freq = scipy.fft.rfftfreq(nfft, 1 / fs)")
     else:
         lines += [
-            "psd = np.concatenate([psd, psd[:, 1 : (nfft + 1) // 2][:, ::-1]], axis=-1)  # negative frequencies",
+            "psd = np.concatenate([psd, psd[:, 1 : (nfft + 1) // 2][:, ::-1]], axis=-1)  # f < 0",
             "freq = scipy.fft.fftfreq(nfft, 1 / fs)",
         ]
     lines.append("sw2 = w[0] ** 2 + 2 * np.sum(w[1:] ** 2)")
