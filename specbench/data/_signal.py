@@ -303,14 +303,18 @@ class Signal:
     def __repr__(self) -> str:
         n, c = self.n_samples, self.n_channels
         names = ", ".join(self._channels[:8]) + (", ..." if c > 8 else "")
-        unit = (f"unit {self._unit!r}" if isinstance(self._unit, str)
-                else "units " + ", ".join(repr(u) for u in self._unit[:8]))
+        if isinstance(self._unit, str):
+            unit = f"unit {self._unit!r}" if self._unit else "no unit"
+        else:
+            unit = "units " + ", ".join(repr(u) for u in self._unit[:8])
         kind = "memory map, " if isinstance(self._data, np.memmap) else ""
         text = (f"<Signal {c} channel{'s' if c != 1 else ''} [{names}] x {n:,} samples at "
                 f"{self._fs:.9g} Hz ({_format_seconds(self.duration)}), {unit}, "
                 f"{kind}{self._data.dtype}")
         if self._t0:
             text += f", t0={self._t0:.9g} s"
+        if self._start is not None:
+            text += f", starting {np.datetime_as_string(self._start, unit='auto')}"
         if self._source:
             text += f"; {self._source}"
         return text + ">"

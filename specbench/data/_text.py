@@ -257,9 +257,16 @@ def read_text(path: Path, dialect: Dialect, *, text_columns: tuple[int, ...] = (
     try:
         import pandas  # noqa: F401
     except ImportError:
-        columns = _scan(path, dialect, text_columns)
+        reader = _scan
     else:
-        columns = _read_pandas(path, dialect, text_columns)
+        reader = _read_pandas
+    try:
+        columns = reader(path, dialect, text_columns)
+    except UnicodeDecodeError as exc:
+        raise InputError(
+            f"{path.name} is not valid {dialect.encoding} text at byte {exc.start} (the start "
+            "of the file was). Re-save it as UTF-8, or check whether it is text at all."
+        ) from None
     table = TextTable(dialect, columns, path)
     if table.n_rows == 0:
         raise InputError(f"{path.name} has a header but no data rows. Check that the export "
@@ -282,7 +289,9 @@ def _read_pandas(path: Path, dialect: Dialect, text_columns: tuple[int, ...]) ->
         kwargs["float_precision"] = "round_trip"  # the default of pandas >= 3
     try:
         frame = pd.read_csv(path, **kwargs)
-    except (pd.errors.ParserError, ValueError, UnicodeDecodeError) as exc:
+    except UnicodeDecodeError:
+        raise
+    except (pd.errors.ParserError, ValueError) as exc:
         _scan(path, dialect, text_columns)  # names the line and raises, as a rule
         raise InputError(f"{path.name} could not be read as a table ({dialect.describe()}): "
                          f"{exc}. Give delimiter=, decimal= or comment= if the detection "

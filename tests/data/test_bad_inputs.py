@@ -364,3 +364,24 @@ class TestFrames:
         with pytest.raises(InputError, match=r"the Series has 1 non-finite value.*row 2 "
                                              r"\(index 0.5\)"):
             Signal.from_pandas(s)
+
+
+class TestMore:
+    def test_absurd_last_timestamp_is_not_filled(self, tmp_path):
+        t = np.arange(100) / 100.0
+        t[-1] = 1e6  # a typo of a year's worth of seconds
+        path = tmp_path / "typo.csv"
+        pd.DataFrame({"t": t, "x": 0.0}).to_csv(path, index=False)
+        with pytest.raises(InputError, match=r"Filling the gaps of the time column 't' of "
+                                             r"typo.csv would add 99,999,901 NaN samples to 100 "
+                                             r"real ones; the largest gap follows t = 0.98 s at "
+                                             r"line 100 of typo.csv"):
+            load(path, on_gap="fill")
+
+    def test_invalid_utf8_after_the_first_block(self, tmp_path):
+        path = tmp_path / "enc.csv"
+        body = "t,x\n" + "".join(f"{i / 10},{i}\n" for i in range(30000))
+        path.write_bytes(body.encode() + b"3000,\xff\xfe\n")
+        with pytest.raises(InputError, match=r"enc.csv is not valid utf-8-sig text at byte "
+                                             r"\d+ .*Re-save it as UTF-8"):
+            load(path)
