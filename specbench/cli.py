@@ -176,7 +176,8 @@ def lab_command(root: Path, *, port: int | None, open_browser: bool) -> list[str
         command.append("--no-browser")
     if _is_root():
         command.append("--allow-root")
-    command.append(str(root / DEMO_NOTEBOOK))
+    # The start URL, both for the browser JupyterLab opens and for the URL it prints.
+    command.append(f"--LabApp.default_url=/lab/tree/{DEMO_NOTEBOOK}")
     return command
 
 

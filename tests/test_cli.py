@@ -128,7 +128,7 @@ class TestDemoCommand:
         assert command[:3] == [sys.executable, "-m", "jupyterlab"]
         assert "--ip=127.0.0.1" in command
         assert f"--ServerApp.root_dir={target}" in command
-        assert command[-1] == str(target / "quickstart.ipynb")
+        assert "--LabApp.default_url=/lab/tree/quickstart.ipynb" in command
         assert not any(arg.startswith("--port") for arg in command)
         assert "--no-browser" not in command
         assert (target / "quickstart.ipynb").is_file()
@@ -315,4 +315,5 @@ def test_demo_serves_the_quickstart(tmp_path):
         log.close()
     text = (tmp_path / "lab.log").read_text()
     assert "copied   quickstart.ipynb" in text
-    assert f"127.0.0.1:{port}/lab" in text
+    # the URL JupyterLab prints (and opens) lands on the notebook
+    assert f"http://127.0.0.1:{port}/lab/tree/quickstart.ipynb?token={token}" in text
