@@ -170,6 +170,9 @@ def data_lines(state: FreezeState, var: str) -> list[str]:
             kwargs["unit"] = signal.unit if isinstance(signal.unit, str) else list(signal.unit)
         name = state.data_name
         built = call("sb.Signal", _Name(name), **kwargs)
+        converter = container_converter(signal)
+        if converter is not None:  # the workbench converted a pandas / xarray object with defaults
+            built = f"sb.Signal.{converter}({name})"
         first = f"{var} = {name} if isinstance({name}, sb.Signal) else {built}"
         if len(first) > LINE:
             args = built[len("sb.Signal(") : -1]
@@ -179,6 +182,16 @@ def data_lines(state: FreezeState, var: str) -> list[str]:
     if len(first) + len(chain) <= LINE and made is not None:
         return [first + chain]
     return [first, f"{var} = {var}{chain}"]
+
+
+def container_converter(signal: Any) -> str | None:
+    """``"from_pandas"`` / ``"from_xarray"`` when an in-memory signal was made from such an object."""
+    source = getattr(signal, "source", "") or ""
+    if source.startswith(("the DataFrame", "the Series")):
+        return "from_pandas"
+    if source.startswith("the DataArray"):
+        return "from_xarray"
+    return None
 
 
 class _Name(str):

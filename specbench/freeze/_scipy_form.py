@@ -20,6 +20,7 @@ from typing import Any
 import numpy as np
 
 from ..estimators import Autocorrelation, Correlogram, Multitaper, Periodogram, Welch
+from ._codegen import container_converter
 from ._describe import origin_call, py, wrap_comment
 from ._state import FreezeState
 
@@ -73,6 +74,10 @@ def _data_lines(state: FreezeState, var: str) -> list[str]:
         f"axis ({shape} x {signal.n_samples:,} samples); from a specbench Signal, pass its .data."
     )
     made = origin_call(getattr(signal, "origin", None))
+    converter = container_converter(signal)
+    if made is None and converter is not None:
+        kind = signal.source.split(":")[0][len("the "):]
+        text += f" specbench takes them from the {kind} with sb.Signal.{converter}({name}).data"
     if made is not None:
         steps = "".join(
             "." + f"{kind}({', '.join(py(a) for a in args)})" for kind, *args in getattr(signal, "selection", ())

@@ -383,3 +383,27 @@ def test_data_name_sig_or_samples_does_not_collide(signal):
     state = dataclasses.replace(state, data_name="samples")
     ns = run_cell(code_cell(state, "scipy"), samples=signal.data)
     assert_close(ns["psd"], state.spectrum.value)
+
+
+@pytest.mark.parametrize("kind", ["DataFrame", "Series", "DataArray"])
+def test_pandas_and_xarray_given_to_the_workbench(record, kind):
+    """The workbench converts these with sb.Signal.from_pandas / from_xarray; the cell does the same."""
+    pd = pytest.importorskip("pandas")
+    xr = pytest.importorskip("xarray")
+    t = np.arange(record.shape[1]) / FS
+    if kind == "DataFrame":
+        obj = pd.DataFrame({"shaker": record[0], "frame": record[1]}, index=pd.Index(t, name="t"))
+        sig = sb.Signal.from_pandas(obj)
+    elif kind == "Series":
+        obj = pd.Series(record[1], index=pd.Index(t, name="t"), name="frame")
+        sig = sb.Signal.from_pandas(obj)
+    else:
+        obj = xr.DataArray(record, dims=("channel", "time"), coords={"time": t, "channel": ["shaker", "frame"]})
+        sig = sb.Signal.from_xarray(obj)
+    state = make_state(sig, sb.Welch(segment_length=1024), channel=sig.channels[-1] if len(sig.channels) > 1
+                       else None, span=(1.0, 15.0))
+    code = code_cell(state, "specbench")
+    assert "from_xarray(x)" in code if kind == "DataArray" else "from_pandas(x)" in code
+    _assert_same(run_cell(code, x=obj), state)
+    _assert_same(run_cell(code, x=sig), state)
+    _assert_scipy_close(run_cell(code_cell(state, "scipy"), x=sig.data), state)

@@ -1,0 +1,208 @@
+"""``specbench estimate``: the batch command gives the API's numbers, with clear errors."""
+
+from __future__ import annotations
+
+import argparse
+import io
+import json
+import re
+import subprocess
+import sys
+import time
+
+import numpy as np
+import pytest
+from conftest import FS, make_state
+
+import specbench as sb
+from specbench.cli import main
+from specbench.freeze import Selection, _batch, save_settings, save_state
+
+
+def _read_csv(path):
+    lines = path.read_text().splitlines()
+    meta = [ln[2:] for ln in lines if ln.startswith("# ")]
+    columns = next(ln for ln in lines if not ln.startswith("#")).split(",")
+    table = np.loadtxt(path, delimiter=",", comments="#", skiprows=len(meta) + 1, ndmin=2)
+    return meta, columns, table
+
+
+def _assert_equal_columns(table, result, axis):
+    """The file's columns are the API result's arrays, bit for bit (17 significant digits round-trip)."""
+    assert np.array_equal(table[:, 0], axis)
+    value = np.atleast_2d(result.value)
+    for i in range(value.shape[0]):
+        for j, part in enumerate(("value", "lower", "upper")):
+            assert np.array_equal(table[:, 1 + 3 * i + j], np.atleast_2d(getattr(result, part))[i]), part
+
+
+@pytest.fixture
+def csv_file(tmp_path, record):
+    path = tmp_path / "stand_run.csv"
+    t = np.arange(record.shape[1]) / FS
+    np.savetxt(path, np.column_stack([t, record.T]), fmt="%.17g", delimiter=",",
+               header="time [s],shaker [m/s^2],frame [m/s^2]", comments="")
+    return path
+
+
+@pytest.fixture
+def npy_file(tmp_path, record):
+    path = tmp_path / "stand.npy"
+    np.save(path, record)
+    return path
+
+
+def test_csv_input_gives_the_api_numbers(tmp_path, csv_file, capsys):
+    est = sb.Welch(segment_length=2048, overlap=0.75, window=("kaiser", 8.6))
+    settings = save_settings(est, tmp_path / "psd.json", Selection(channel="frame", span=(2.0, 20.0)))
+    out = tmp_path / "psd.csv"
+    assert main(["estimate", str(csv_file), "--settings", str(settings), "--out", str(out)]) == 0
+    api = est(sb.load(csv_file).channel("frame").span(2.0, 20.0))
+    meta, columns, table = _read_csv(out)
+    assert columns == ["freq_hz", "value", "lower", "upper"]
+    _assert_equal_columns(table, api, api.freq)
+    text = "\n".join(meta)
+    assert f"specbench {sb.__version__}" in text
+    assert f"estimator: {est!r}" in text
+    assert "fs_hz: 1000.0" in text and "confidence: 0.95" in text
+    assert f"dof: {np.median(api.dof[1:-1]):.6g} per bin (DC and Nyquist of real data: half)" in text
+    assert f"data_call: sb.load({str(csv_file)!r}).channel('frame').span(2.0, 20.0)" in text
+    assert "data_source: stand_run.csv" in text
+    err = capsys.readouterr().err
+    assert "reading" in err and "estimating" in err and f"wrote {out}" in err
+
+
+def test_memory_mapped_npy_all_channels_csv_and_npz(tmp_path, npy_file):
+    est = sb.Multitaper(segment_length=1024, bandwidth=3.0)
+    settings = save_settings(est, tmp_path / "mt.json", correlation=sb.Autocorrelation(max_lag=0.05))
+    sig = sb.load(npy_file, fs=FS)
+    assert isinstance(sig.data.base, np.memmap) or isinstance(sig.data, np.memmap)
+    api, acf = est(sig), sb.Autocorrelation(max_lag=0.05)(sig)
+    out_csv, out_npz, acf_csv = tmp_path / "mt.csv", tmp_path / "mt.npz", tmp_path / "acf.csv"
+    assert main(["estimate", str(npy_file), "-s", str(settings), "-o", str(out_csv), "--fs", "1000",
+                 "--acf-out", str(acf_csv), "-q"]) == 0
+    _, columns, table = _read_csv(out_csv)
+    assert columns == ["freq_hz", "ch0:value", "ch0:lower", "ch0:upper", "ch1:value", "ch1:lower", "ch1:upper"]
+    _assert_equal_columns(table, api, api.freq)
+    _, columns, table = _read_csv(acf_csv)
+    assert columns[0] == "lag_s"
+    _assert_equal_columns(table, acf, acf.lag)
+    assert main(["estimate", str(npy_file), "-s", str(settings), "-o", str(out_npz), "--fs", "1000", "-q"]) == 0
+    with np.load(out_npz, allow_pickle=False) as z:
+        for name, ref in (("freq_hz", api.freq), ("value", api.value), ("lower", api.lower),
+                          ("upper", api.upper), ("dof", api.dof)):
+            assert np.array_equal(z[name], ref), name
+        assert list(z["channels"]) == ["ch0", "ch1"]
+        meta = json.loads(z["metadata"].item())
+    assert meta["estimator"] == repr(est) and meta["fs_hz"] == 1000.0
+    assert sb.estimator_from_dict(meta["estimator_dict"]) == est
+
+
+def test_settings_from_the_workbench_state_read_a_new_file_the_same_way(tmp_path, csv_file, record):
+    """The reading options (time column) and the selection travel in the settings file."""
+    first = sb.load(csv_file, time_column="time")
+    state = make_state(first, sb.Welch(segment_length=1024), sb.Autocorrelation(max_lag=0.1),
+                       channel="shaker", span=(1.0, 11.0), fs=1024.0, compute=False)
+    settings = save_state(state, tmp_path / "bench.json")
+    second = tmp_path / "next_run.csv"
+    t = np.arange(record.shape[1]) / FS
+    np.savetxt(second, np.column_stack([t, record[::-1].T * 2.0]), fmt="%.17g", delimiter=",",
+               header="time [s],shaker [m/s^2],frame [m/s^2]", comments="")
+    out = tmp_path / "next.csv"
+    assert main(["estimate", str(second), "-s", str(settings), "-o", str(out), "-q"]) == 0
+    api = state.selection.apply(sb.load(second, time_column="time"))
+    assert api.fs == 1024.0
+    _, _, table = _read_csv(out)
+    spec = state.estimator(api)
+    _assert_equal_columns(table, spec, spec.freq)
+    # --channel picks another channel than the settings'
+    assert main(["estimate", str(second), "-s", str(settings), "-o", str(out), "-q", "--channel", "frame"]) == 0
+    spec = state.estimator(Selection(channel="frame", span=(1.0, 11.0), fs=1024.0).apply(
+        sb.load(second, time_column="time")))
+    _, _, table = _read_csv(out)
+    _assert_equal_columns(table, spec, spec.freq)
+
+
+def test_long_input_shows_a_running_clock_on_a_terminal(tmp_path, npy_file, monkeypatch):
+    """On a terminal a long phase shows its elapsed time; nothing claims a fraction done."""
+    monkeypatch.setattr(_batch, "LONG_INPUT", 1000)
+
+    class Tty(io.StringIO):
+        def isatty(self):
+            return True
+
+    stream = Tty()
+    settings = save_settings(sb.Welch(segment_length=4096), tmp_path / "w.json")
+    ns = argparse.Namespace(data=npy_file, settings=settings, out=tmp_path / "w.csv", acf_out=None,
+                            channel=None, fs=FS, time_column=None, quiet=False)
+    monkeypatch.setattr(sb.Welch, "__call__", _slow(sb.Welch.__call__))
+    _batch.estimate_file(ns, _batch._Progress(stream, quiet=False))
+    text = stream.getvalue()
+    assert "\rspecbench estimate: estimating Welch(segment_length=4096) on 2 x 24,000 samples ... " in text
+    assert " s" in text and "frequencies (" in text and "%" not in text
+
+
+def _slow(call):
+    def wrapped(self, *a, **k):
+        time.sleep(1.2)
+        return call(self, *a, **k)
+
+    return wrapped
+
+
+# --------------------------------------------------------------------------- errors
+
+
+ERRORS = [
+    (["--settings", "{missing}"], r"Settings file '.*missing.json': no such file"),
+    (["--out", "{dir}/r.txt"], r"cannot write '.*r.txt': the result is written as .csv or .npz"),
+    (["--out", "{dir}/none/r.csv"], r"the folder '.*none' does not exist"),
+    (["--channel", "nope"], r"No channel named 'nope'; the channels are \['ch0', 'ch1'\]"),
+    (["--fs", "0"], r"--fs must be a positive sample rate"),
+    (["--settings", "{acf_settings}"], r"is Autocorrelation\(\); specbench estimate needs a spectral estimator"),
+    (["--acf-out", "{dir}/a.csv"], r"--acf-out was given, but .* holds no correlation estimator"),
+    (["--settings", "{span_settings}"], r"The span 10 to 99 s reaches outside the record"),
+    (["--fs", None], r"states no sample rate. Pass fs=<samples per second>. \(On the command line: --fs HZ.\)"),
+]
+
+
+@pytest.mark.parametrize("extra, pattern", ERRORS, ids=[e[1][:40] for e in ERRORS])
+def test_errors_are_one_clear_line_with_exit_code_2(tmp_path, npy_file, capsys, extra, pattern):
+    base = save_settings(sb.Welch(segment_length=512), tmp_path / "w.json")
+    names = {
+        "dir": str(tmp_path),
+        "missing": str(tmp_path / "missing.json"),
+        "acf_settings": str(save_settings(sb.Autocorrelation(), tmp_path / "acf.json")),
+        "span_settings": str(save_settings(sb.Welch(), tmp_path / "span.json", {"span": [10.0, 99.0]})),
+    }
+    argv = {"DATA": str(npy_file), "--settings": str(base), "--out": str(tmp_path / "r.csv"), "--fs": "1000"}
+    for key, value in zip(extra[::2], extra[1::2]):
+        argv[key] = None if value is None else value.format(**names)
+    args = ["estimate", argv.pop("DATA")] + [a for k, v in argv.items() if v is not None for a in (k, v)]
+    with pytest.raises(SystemExit) if "--fs must" in pattern else _nullcontext():
+        code = main(args)
+        assert code == 2
+    err = capsys.readouterr().err
+    assert re.search(pattern, err), err
+    assert "Traceback" not in err
+    assert not (tmp_path / "r.csv").exists()  # nothing half-written
+
+
+class _nullcontext:
+    def __enter__(self):
+        return self
+
+    def __exit__(self, *exc):
+        return False
+
+
+def test_console_command_prints_no_traceback(tmp_path, npy_file):
+    proc = subprocess.run(
+        [sys.executable, "-m", "specbench.cli", "estimate", str(npy_file), "--settings",
+         str(tmp_path / "nope.json"), "--out", str(tmp_path / "r.csv")],
+        capture_output=True, text=True, timeout=120,
+    )
+    assert proc.returncode == 2
+    assert proc.stderr.startswith("specbench estimate: Settings file") and "Traceback" not in proc.stderr
+    assert proc.stdout == ""
+
