@@ -29,6 +29,8 @@ from collections.abc import Callable, Sequence
 from importlib import resources
 from pathlib import Path
 
+from .freeze import _batch
+
 __all__ = ["COMMANDS", "main"]
 
 AddArguments = Callable[[argparse.ArgumentParser], None]
@@ -211,6 +213,7 @@ def launch_lab(command: Sequence[str], cwd: Path) -> int:
 #: Subcommand table, ``name -> (add_arguments, run)``; see the module docstring.
 COMMANDS: dict[str, tuple[AddArguments, Run]] = {
     "demo": (_add_demo_arguments, _run_demo),
+    "estimate": (_batch.add_arguments, _batch.run),
 }
 
 
