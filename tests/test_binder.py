@@ -124,3 +124,19 @@ class TestRequirements:
             assert requirement.specifier.contains(installs[name], prereleases=True)
         assert "specbench" in installs
         assert "ipykernel" in installs  # the notebooks need a kernel in the same environment
+
+
+def _readme_binder_targets() -> list[str]:
+    readme = REPO / "README.md"
+    text = readme.read_text(encoding="utf-8") if readme.is_file() else ""
+    return re.findall(r"[?&]urlpath=(?:%2F|/)?lab(?:%2F|/)tree(?:%2F|/)([^)\s&\"']+)", text)
+
+
+@pytest.mark.parametrize(
+    "target",
+    _readme_binder_targets()
+    or [pytest.param(None, marks=pytest.mark.skip(reason="README.md has no Binder link yet"))],
+)
+def test_readme_binder_link_opens_a_notebook_of_the_repo(target):
+    path = REPO / target.replace("%2F", "/")
+    assert path.suffix == ".ipynb" and path.is_file(), f"the Binder link opens {target}: no such file"
