@@ -94,9 +94,8 @@ def from_pandas(
                           na_value=np.nan).T
     rec = Record(data, label, names=[names[j] for j in pick], where=where,
                  rate_hint="fs= or a time index (DatetimeIndex or float seconds)")
-    attr_unit = frame.attrs.get("unit", obj.attrs.get("unit") if hasattr(obj, "attrs") else None)
-    if unit is None and attr_unit is not None:
-        unit = attr_unit
+    if unit is None:
+        unit = obj.attrs.get("unit")
     if tvalues is not None:
         rec.time, rec.start, rec.t0 = time_axis(tvalues, label=tlabel, row=where, unit=tunit)
     return assemble(rec, fs=fs, unit=unit, on_gap=on_gap, max_jitter=max_jitter)
@@ -210,11 +209,15 @@ def _time_dim(obj: Any, dims: list[str], label: str) -> str:
                      "naming the time dimension.")
 
 
-def convert(obj: Any) -> Signal | None:
-    """Converter for :func:`specbench.estimators._input.register_converter`."""
+def convert(obj: Any, fs: float | None = None) -> Signal | None:
+    """Converter for :func:`specbench.estimators._input.register_converter`.
+
+    ``fs`` is the rate passed to the estimator, if any: it lets an object without a time
+    index (a RangeIndex Series) be estimated, and is checked against a time index.
+    """
     module = type(obj).__module__.split(".", 1)[0]
     if module == "pandas":
-        return from_pandas(obj)
+        return from_pandas(obj, fs=fs)
     if module == "xarray":
-        return from_xarray(obj)
+        return from_xarray(obj, fs=fs)
     return None

@@ -32,8 +32,6 @@ INTERVAL_ATTRIBUTES = ("dt", "sample_interval", "sampling_interval")
 UNIT_ATTRIBUTES = ("unit", "units")
 CHANNEL_ATTRIBUTES = ("channels", "channel_names")
 
-_MIB = 1 << 20
-
 
 # -- readers ----------------------------------------------------------------------------
 def _read_csv(path: Path, o: dict) -> Record:
@@ -53,9 +51,10 @@ def _read_csv(path: Path, o: dict) -> Record:
     data_cols = [j for j in range(dialect.n_fields) if j != tj]
     pick = select_columns([names[j] for j in data_cols], o["channels"], path.name, reserved)
     cols = [data_cols[i] for i in pick]
-    data = np.vstack([table.columns[j] for j in cols]) if cols else np.empty((0, table.n_rows))
     if not cols:
-        raise InputError(f"{path.name} has only a time column and no data column.")
+        raise InputError(f"{path.name} has only a time column and no data column. Load a "
+                         "file with at least one column of samples.")
+    data = np.vstack([table.columns[j] for j in cols])
     rec = Record(data, path.name, names=[names[j] for j in cols], units=[units[j] for j in cols],
                  where=table.where, notes=[dialect.describe()], rate_hint="fs= or time_column=")
     if tj is not None:

@@ -21,7 +21,6 @@ from pathlib import Path
 import numpy as np
 
 from .._errors import InputError
-from ._signal import format_positions
 
 __all__ = ["Dialect", "TextTable", "sniff", "read_text", "column_is_text", "split_unit"]
 
@@ -305,12 +304,12 @@ def _read_pandas(path: Path, dialect: Dialect, text_columns: tuple[int, ...]) ->
             columns.append(col.to_numpy(dtype=np.float64))
         else:  # a cell pandas could not read as a number: find it the slow, precise way
             return _scan(path, dialect, text_columns)
-    if frame.shape[0] and _has_ragged_short_rows(frame, dialect, text_columns):
+    if frame.shape[0] and _has_ragged_short_rows(frame, dialect):
         return _scan(path, dialect, text_columns)
     return columns
 
 
-def _has_ragged_short_rows(frame, dialect: Dialect, text_columns: tuple[int, ...]) -> bool:
+def _has_ragged_short_rows(frame, dialect: Dialect) -> bool:
     """pandas fills a row with too few fields with NaN; the last column then holds NaN."""
     last = frame[dialect.n_fields - 1]
     return bool(last.isna().any())
@@ -381,8 +380,3 @@ def _data_line_numbers(path: Path, dialect: Dialect) -> np.ndarray:
             if text.strip():
                 numbers.append(number)
     return np.asarray(numbers, dtype=np.int64)
-
-
-def describe_cells(table: TextTable, column: int, rows: np.ndarray) -> str:
-    """``"line 12 ('nan'), line 40 ('')"`` for the first few rows (for messages)."""
-    return format_positions([f"line {table.line(int(r))}" for r in rows])

@@ -171,3 +171,13 @@ class TestMemoryMap:
         assert isinstance(sig.data, np.memmap) and not sig.data.flags.c_contiguous
         est = Welch(segment_length=1024)
         assert_allclose(est(sig).value, est(frames.T.copy(), fs=10_000.0).value, rtol=1e-12)
+
+
+def test_converter_takes_the_estimators_rate():
+    from specbench.data._frames import convert
+
+    series = pd.Series(np.zeros(100))  # RangeIndex: no time of its own
+    assert convert(series, fs=50.0).fs == 50.0
+    assert convert(np.zeros(3)) is None
+    with pytest.raises(InputError, match="states no sample rate"):
+        convert(series)
