@@ -407,3 +407,36 @@ def test_pandas_and_xarray_given_to_the_workbench(record, kind):
     _assert_same(run_cell(code, x=obj), state)
     _assert_same(run_cell(code, x=sig), state)
     _assert_scipy_close(run_cell(code_cell(state, "scipy"), x=sig.data), state)
+
+
+# --------------------------------------------------------------------------- outside references
+
+
+def test_plain_welch_dof_matches_harris_overlap_correlation(signal):
+    """The dof lines of the plain cell, against a published figure: the Hann window at 50 %
+    overlap has an overlap correlation of 16.7 % (F. J. Harris, Proc. IEEE 66(1), 1978,
+    Table I), so with only adjacent segments overlapping, eq. (292b) of Percival & Walden
+    (1993) gives dof = 2 n^2 / (n + 2 (n - 1) c^2) with c = 0.167 (to the table's 3 digits)."""
+    state = make_state(signal, sb.Welch(segment_length=1000, overlap=0.5), channel="frame")
+    ns = run_cell(code_cell(state, "scipy"), x=signal.data)
+    n = ns["nseg"]
+    assert n == 47
+    # the table's 0.167 stands for any c in [0.1665, 0.1675)
+    high, low = (2 * n * n / (n + 2 * (n - 1) * c**2) for c in (0.1665, 0.1675))
+    assert np.all((low < ns["dof"][1:-1]) & (ns["dof"][1:-1] < high))
+    assert np.all((low / 2 < ns["dof"][[0, -1]]) & (ns["dof"][[0, -1]] < high / 2))
+
+
+def test_plain_autocorrelation_band_matches_statsmodels(signal):
+    """The plain cell's Bartlett band equals statsmodels.tsa.stattools.acf(alpha=...) (statsmodels,
+    reference library), which implements Bartlett's (1946) formula."""
+    stattools = pytest.importorskip("statsmodels.tsa.stattools")
+    acf = sb.Autocorrelation(max_lag=0.08, band="bartlett", confidence=0.95)
+    state = make_state(signal, sb.Welch(segment_length=512), acf, channel="shaker", span=(0.0, 12.0))
+    ns = run_cell(code_cell(state, "scipy"), x=signal.data)
+    x = state.analysed_signal().data[0]
+    kwargs = {"result_object": False} if "result_object" in stattools.acf.__code__.co_varnames else {}
+    ref, conf = stattools.acf(x, nlags=80, alpha=0.05, fft=True, **kwargs)
+    np.testing.assert_allclose(ns["acf"][0], ref, rtol=1e-10, atol=1e-13)
+    np.testing.assert_allclose(ns["acf_lower"][0], conf[:, 0], rtol=1e-10, atol=1e-13)
+    np.testing.assert_allclose(ns["acf_upper"][0], conf[:, 1], rtol=1e-10, atol=1e-13)
