@@ -1,0 +1,160 @@
+"""Pinned estimates: kept on screen for comparison, labelled by what sets them apart.
+
+A pin holds the full-resolution results and the settings that made them.  Its label
+(unless the user gave one) is built from the settings that differ between the pins, so
+it says what the comparison is about: ``segment_length=4096, window=hamming``.  Each pin
+keeps the colour and dash it was given while it lives; a removed pin's style is reused.
+"""
+
+from __future__ import annotations
+
+import html
+from collections.abc import Callable
+from dataclasses import dataclass, field
+from typing import Any
+
+import ipywidgets as W
+
+from ._merit import spectrum_merits
+from ._style import DASH_ARRAY, PIN_STYLES
+
+__all__ = ["Pin", "PinBoard", "MAX_PINS", "settings_of", "auto_labels"]
+
+MAX_PINS = len(PIN_STYLES)
+_LABEL_CHARS = 72
+
+
+@dataclass
+class Pin:
+    """One pinned estimate.
+
+    Attributes
+    ----------
+    label : str
+        Shown in the pin table; built from the differing settings unless given.
+    estimator, correlation_estimator
+        The estimators of the pinned results.
+    spectrum, correlation
+        The full-resolution results (of the analysed channel).
+    channel, span, fs
+        The data selection: channel name, span in seconds (None: whole record) and
+        the effective sample rate.
+    color, line_style
+        How the pin is drawn in both views.
+    """
+
+    label: str
+    estimator: Any
+    correlation_estimator: Any
+    spectrum: Any
+    correlation: Any
+    channel: str
+    span: tuple[float, float] | None
+    fs: float
+    color: str
+    line_style: str
+    user_label: bool = False
+    settings: dict = field(default_factory=dict, repr=False)
+    #: one-channel views of the results, drawn by the views
+    _spectrum1: Any = field(default=None, repr=False)
+    _correlation1: Any = field(default=None, repr=False)
+
+
+def _short(v: Any) -> str:
+    if isinstance(v, tuple) and v and isinstance(v[0], str):  # a window with parameters
+        return f"{v[0]}({', '.join(f'{a:g}' if isinstance(a, float) else str(a) for a in v[1:])})"
+    if isinstance(v, float):
+        return f"{v:g}"
+    if isinstance(v, tuple):
+        return "(" + ", ".join(_short(a) for a in v) + ")"
+    return str(v)
+
+
+def settings_of(estimator, correlation_estimator, channel, span, fs, shared: set[str]) -> dict[str, Any]:
+    """Everything that makes a pin: method, fields, autocorrelation fields, data selection."""
+    out: dict[str, Any] = {"method": type(estimator).kind}
+    for name in estimator.params():
+        out[name] = getattr(estimator, name)
+    for name in correlation_estimator.params():
+        if name not in shared:
+            out[f"acf_{name}"] = getattr(correlation_estimator, name)
+    out["channel"] = channel
+    out["span"] = span
+    out["fs"] = fs
+    return out
+
+
+def auto_labels(settings: list[dict[str, Any]], estimators: list[Any]) -> list[str]:
+    """Labels from the settings that differ between pins (all of them, for one pin)."""
+    keys: list[str] = []
+    for s in settings:
+        keys += [k for k in s if k not in keys]
+    differing = [k for k in keys if len({repr(s.get(k, "—")) for s in settings}) > 1]
+    labels = []
+    for s, est in zip(settings, estimators):
+        if differing:
+            parts = [f"{k}={_short(s[k])}" if k in s else f"{k}=—" for k in differing]
+            if "method" in differing:
+                parts = [s["method"]] + [p for p in parts if not p.startswith("method=")]
+            text = ", ".join(parts)
+        else:
+            changed = est.changed_fields()
+            text = type(est).kind + (" " + ", ".join(f"{k}={_short(v)}" for k, v in changed.items()) if changed else "")
+        labels.append(text if len(text) <= _LABEL_CHARS else text[: _LABEL_CHARS - 1] + "…")
+    return labels
+
+
+def swatch(color: str, dash: str) -> str:
+    return (f"<svg width='34' height='10'><line x1='1' y1='5' x2='33' y2='5' stroke='{color}' "
+            f"stroke-width='2.2' stroke-dasharray='{DASH_ARRAY[dash]}'/></svg>")
+
+
+class PinBoard:
+    """The pin buttons and the pin table (CSS classes ``sb-pins``, ``sb-pin-button``)."""
+
+    def __init__(self, on_pin: Callable[[], None], on_remove: Callable[[int], None],
+                 on_clear: Callable[[], None]) -> None:
+        self.pin_button = W.Button(description="Pin this estimate", icon="thumb-tack",
+                                   tooltip="Keep the current estimate on both views for comparison.")
+        self.pin_button.add_class("sb-pin-button")
+        self.clear_button = W.Button(description="Remove all", tooltip="Remove every pin.")
+        self.clear_button.add_class("sb-pin-clear")
+        self.pin_button.on_click(lambda _: on_pin())
+        self.clear_button.on_click(lambda _: on_clear())
+        self._on_remove = on_remove
+        self.count = W.HTML()
+        self.table = W.VBox()
+        self.table.add_class("sb-pin-table")
+        head = W.HBox([self.pin_button, self.clear_button, self.count], layout=W.Layout(align_items="center",
+                                                                                         gap="6px"))
+        self.widget = W.VBox([head, self.table])
+        self.widget.add_class("sb-pins")
+        self.show([])
+
+    def show(self, pins: list[Pin]) -> None:
+        self.count.value = f"<span class='sb-muted'>{len(pins)} of {MAX_PINS} pins</span>"
+        self.clear_button.disabled = not pins
+        rows = []
+        for i, p in enumerate(pins):
+            m = {x.key: x.text for x in spectrum_merits(p.spectrum.channel(0))}
+            data = f"channel {p.channel}"
+            if p.span is not None:
+                data += f", span {p.span[0]:g}–{p.span[1]:g} s"
+            data += f", fs {p.fs:g} Hz"
+            info = W.HTML(
+                f"<div style='display:flex;gap:10px;align-items:baseline;flex-wrap:wrap'>"
+                f"{swatch(p.color, p.line_style)}<b>{html.escape(p.label)}</b>"
+                f"<span class='sb-muted'>res {html.escape(m['resolution'])} · dof {html.escape(m['dof'])} · "
+                f"band {html.escape(m['band_db'])} · Parseval {html.escape(m['parseval'])}</span></div>"
+                f"<div class='sb-pin-settings'>{html.escape(repr(p.estimator))} · "
+                f"{html.escape(repr(p.correlation_estimator))} · {html.escape(data)}</div>",
+                layout=W.Layout(flex="1 1 auto"),
+            )
+            remove = W.Button(description="", icon="times", layout=W.Layout(width="34px"),
+                              tooltip=f"Remove the pin {p.label}")
+            remove.add_class("sb-pin-remove")
+            remove.on_click(lambda _, i=i: self._on_remove(i))
+            row = W.HBox([info, remove], layout=W.Layout(width="100%"))
+            row.add_class("sb-pin-row")
+            rows.append(row)
+        self.table.children = rows

@@ -1,0 +1,76 @@
+"""Colours, line styles and the small style sheet of the workbench.
+
+Colours are mid-tone, chosen to read on both JupyterLab's light and dark themes; every
+other colour (text, borders, backgrounds) comes from JupyterLab's own CSS variables, so
+the widget follows the theme.  The palette is our own.
+"""
+
+from __future__ import annotations
+
+import ipywidgets as W
+
+__all__ = ["CURRENT", "PIN_STYLES", "style_sheet", "BAND_OPACITY"]
+
+#: the current estimate (line and band)
+CURRENT = "#3a78c2"
+#: opacity of a shaded confidence band
+BAND_OPACITY = 0.22
+
+#: (colour, dash) of pins 1..8: distinct in hue and in dash, so they also read in grey
+PIN_STYLES: tuple[tuple[str, str], ...] = (
+    ("#d0671f", "dashed"),
+    ("#2f9a62", "dotted"),
+    ("#9457b8", "dash_dotted"),
+    ("#b88a12", "dashed"),
+    ("#cf4f74", "dotted"),
+    ("#1c93a8", "dash_dotted"),
+    ("#7d8a2a", "dashed"),
+    ("#8c7a6b", "dotted"),
+)
+
+#: SVG dash arrays matching bqplot's line styles (for the swatches in the pin table)
+DASH_ARRAY = {"solid": "", "dashed": "6,3", "dotted": "2,3", "dash_dotted": "6,3,2,3"}
+
+_CSS = """
+<style>
+.sb-workbench { gap: 6px; color: var(--jp-ui-font-color1); }
+.sb-workbench .sb-section-title {
+  font-size: var(--jp-ui-font-size0, 11px); text-transform: uppercase; letter-spacing: .06em;
+  color: var(--jp-ui-font-color2); margin: 8px 0 2px 0; border-bottom: 1px solid var(--jp-border-color2);
+}
+.sb-workbench .sb-control-label { color: var(--jp-ui-font-color1); text-align: left; }
+.sb-workbench .sb-control-label .widget-html-content { text-align: left; }
+.sb-workbench .sb-invalid input, .sb-workbench .sb-invalid select {
+  border-color: var(--jp-error-color1) !important;
+  box-shadow: 0 0 0 1px var(--jp-error-color1) !important;
+}
+.sb-workbench .sb-invalid .sb-control-label { color: var(--jp-error-color1); }
+.sb-workbench .sb-status { padding: 3px 8px; border-left: 3px solid var(--jp-border-color2);
+  background: var(--jp-layout-color2); min-height: 1.6em; }
+.sb-workbench .sb-status.sb-status-error { border-left-color: var(--jp-error-color1); }
+.sb-workbench .sb-status.sb-status-note { border-left-color: var(--jp-warn-color1); }
+.sb-workbench .sb-status.sb-status-busy { border-left-color: var(--jp-brand-color1); }
+.sb-workbench .sb-status .sb-err { color: var(--jp-error-color1); font-weight: 600; }
+.sb-workbench .sb-status .sb-note { color: var(--jp-warn-color1); font-weight: 600; }
+.sb-workbench .sb-muted { color: var(--jp-ui-font-color2); }
+.sb-workbench .sb-merit-grid { display: grid; grid-template-columns: repeat(auto-fill, minmax(130px, 1fr));
+  gap: 4px 10px; }
+.sb-workbench .sb-merit-cell { border-top: 1px solid var(--jp-border-color2); padding-top: 2px; }
+.sb-workbench .sb-merit-name { font-size: var(--jp-ui-font-size0, 11px); color: var(--jp-ui-font-color2); }
+.sb-workbench .sb-merit-value { font-variant-numeric: tabular-nums; }
+.sb-workbench .sb-merit-compute { grid-column: span 2; }
+.sb-workbench .sb-readout { font-variant-numeric: tabular-nums; color: var(--jp-ui-font-color1);
+  min-height: 1.4em; }
+.sb-workbench table.sb-pin-table { border-collapse: collapse; width: 100%; }
+.sb-workbench .sb-pin-row { border-top: 1px solid var(--jp-border-color2); align-items: center; }
+.sb-workbench .sb-pin-row .sb-pin-settings { color: var(--jp-ui-font-color2);
+  font-family: var(--jp-code-font-family); font-size: var(--jp-code-font-size, 12px); }
+.sb-workbench .sb-view-title { font-weight: 600; }
+.sb-workbench .bqplot .mainheading { font-size: 13px; }
+</style>
+"""
+
+
+def style_sheet() -> W.HTML:
+    """An HTML widget holding the workbench style sheet (scoped to ``.sb-workbench``)."""
+    return W.HTML(_CSS, layout=W.Layout(display="none"))

@@ -1,0 +1,481 @@
+"""The two result views: the PSD and the autocorrelation, each with its shaded band.
+
+A view owns one bqplot Figure with a band mark (``Lines`` with ``fill="between"`` on a
+two-row y), the current estimate's line, one line per pin, and two tools: *read*
+(an ``IndexSelector``: move over the plot, click to hold, and the readout gives the
+nearest bin of the full-resolution result) and *zoom* (``PanZoom``; a zoomed view is
+reduced again over its visible range, so zooming in shows every bin).
+
+Marks never receive more than :data:`~specbench.widgets._reduce.MAX_POINTS` points: the
+traces are reduced by :func:`~specbench.widgets._reduce.reduce_sorted` (min/max per
+column, peaks kept) and the band by its per-column envelope.
+"""
+
+from __future__ import annotations
+
+import contextlib
+import math
+import weakref
+from collections.abc import Iterable
+from dataclasses import dataclass
+from typing import Any
+
+import bqplot as bq
+import ipywidgets as W
+import numpy as np
+
+from ._reduce import reduce_sorted
+from ._style import BAND_OPACITY, CURRENT
+
+__all__ = ["Trace", "SpectrumView", "CorrelationView", "spectrum_trace", "correlation_trace", "fmt"]
+
+#: "Plot as" choices: (menu label, Spectrum.view kind)
+PLOT_AS = (("density", "density"), ("amplitude density", "asd"), ("dB", "db"), ("power", "power"))
+
+
+def fmt(v: float, digits: int = 4) -> str:
+    """A number for people: 4 significant digits, no exponent between 1e-3 and 1e5."""
+    if v is None or not np.isfinite(v):
+        return "—" if v is None else str(v)
+    a = abs(v)
+    if a != 0 and (a < 1e-3 or a >= 1e5):
+        return f"{v:.{digits - 1}e}"
+    return f"{v:.{digits}g}"
+
+
+def log_ticks(lo: float, hi: float, most: int = 9) -> list[float]:
+    """Tick values for a logarithmic axis over [lo, hi]: decades, then 1-2-5, then 1..9."""
+    if not (lo > 0 and hi > lo and math.isfinite(lo) and math.isfinite(hi)):
+        return []
+    d0, d1 = math.floor(math.log10(lo)), math.ceil(math.log10(hi))
+    for mantissas in ((1,), (1, 2, 5), (1, 2, 3, 4, 5, 6, 7, 8, 9)):
+        ticks = [m * 10.0**d for d in range(d0, d1 + 1) for m in mantissas]
+        ticks = [t for t in ticks if lo <= t <= hi]
+        if len(ticks) >= 3 or mantissas[-1] == 9:
+            break
+    if len(ticks) > most:  # thin out decades on a very wide range
+        step = math.ceil(len(ticks) / most)
+        ticks = ticks[::step]
+    return ticks
+
+
+def linear_ticks(lo: float, hi: float, target: int = 6) -> list[float]:
+    """Round tick values (steps of 1, 2, 2.5 or 5 times a power of ten) over [lo, hi]."""
+    if not (math.isfinite(lo) and math.isfinite(hi)) or hi <= lo:
+        return []
+    raw = (hi - lo) / max(1, target - 1)
+    mag = 10.0 ** math.floor(math.log10(raw))
+    step = next(m * mag for m in (1, 2, 2.5, 5, 10) if m * mag >= raw)
+    first = math.ceil(lo / step - 1e-9) * step
+    n = int(math.floor((hi - first) / step + 1e-9)) + 1
+    return [round(first + i * step, 12) for i in range(max(0, n))]
+
+
+@dataclass(frozen=True)
+class Trace:
+    """A reduced trace ready for marks: x, the estimate and the band envelope."""
+
+    x: np.ndarray
+    y: np.ndarray
+    lower: np.ndarray
+    upper: np.ndarray
+    unit: str
+    #: y range of the interior points (DC and Nyquist, with half the dof, left out)
+    yrange: tuple[float, float] | None
+    full_size: int
+
+    @property
+    def size(self) -> int:
+        return int(self.x.size)
+
+
+def _yrange(values: Iterable[np.ndarray], log: bool) -> tuple[float, float] | None:
+    lo, hi = math.inf, -math.inf
+    for v in values:
+        v = v[np.isfinite(v)]
+        if log:
+            v = v[v > 0]
+        if v.size:
+            lo, hi = min(lo, float(v.min())), max(hi, float(v.max()))
+    if not math.isfinite(lo) or not math.isfinite(hi):
+        return None
+    return lo, hi
+
+
+def spectrum_trace(spec, kind: str, xlog: bool, lo: float | None = None, hi: float | None = None) -> Trace:
+    """The display trace of a one-channel Spectrum in view ``kind`` ("density", "asd", "db", "power").
+
+    The DC bin is left out when the estimator detrended the data (it then holds only the
+    residual of the removed mean), and on a logarithmic frequency axis.
+    """
+    value, lower, upper, unit = spec.view(kind)
+    f = spec.freq
+    start = 0
+    if f.size > 1 and f[0] == 0 and getattr(spec.estimator, "detrend", "none") != "none":
+        start = 1
+    f, value, lower, upper = f[start:], value[start:], lower[start:], upper[start:]
+    red = reduce_sorted(f, value, log=xlog, lo=lo, hi=hi)
+    x = red.take(f)
+    y = red.take(value)
+    lo_env = red.envelope(lower, "min")
+    hi_env = red.envelope(upper, "max")
+    ylog = kind != "db"
+    interior = (red.index > 0) & (red.index < f.size - 1)
+    yr = _yrange([y[interior], lo_env[interior], hi_env[interior]], ylog)
+    if ylog:
+        y, lo_env, hi_env = (np.where(a > 0, a, np.nan) for a in (y, lo_env, hi_env))
+    return Trace(x.astype(float), y.astype(float), lo_env.astype(float), hi_env.astype(float),
+                 unit, yr, int(spec.freq.size))
+
+
+def correlation_trace(corr, lo: float | None = None, hi: float | None = None) -> Trace:
+    """The display trace of a one-channel Correlation (lag in seconds)."""
+    red = reduce_sorted(corr.lag, corr.value, lo=lo, hi=hi)
+    x, y = red.take(corr.lag), red.take(corr.value)
+    lo_env, hi_env = red.envelope(corr.lower, "min"), red.envelope(corr.upper, "max")
+    yr = _yrange([y, lo_env, hi_env], False)
+    return Trace(x.astype(float), y.astype(float), lo_env.astype(float), hi_env.astype(float),
+                 corr.unit, yr, int(corr.lag.size))
+
+
+class _TraceView:
+    """Figure, band, current line, pin lines, read/zoom tools and the readout."""
+
+    #: css class of the figure
+    css = ""
+    x_label = ""
+
+    def __init__(self, title: str, height: str = "360px") -> None:
+        self._guard = 0
+        self.zoomed = False
+        self.result = None  # the full-resolution result on screen
+        self._read_x: float | None = None  # where the read tool was last
+        self.pinned: list[tuple[Any, str, str]] = []  # (result, colour, dash)
+        self._cache: weakref.WeakKeyDictionary = weakref.WeakKeyDictionary()
+        self.xs, self.ys = self._make_scales()
+        self.band = bq.Lines(
+            x=np.zeros(0), y=np.zeros((2, 0)), scales={"x": self.xs, "y": self.ys}, fill="between",
+            colors=[CURRENT, CURRENT], fill_colors=[CURRENT], fill_opacities=[BAND_OPACITY],
+            opacities=[0.0, 0.0], stroke_width=0.0, enable_hover=False, apply_clip=True,
+        )
+        self.line = bq.Lines(x=np.zeros(0), y=np.zeros(0), scales={"x": self.xs, "y": self.ys},
+                             colors=[CURRENT], stroke_width=1.6, enable_hover=False)
+        self.pin_lines: list[bq.Lines] = []
+        self.ax_x = bq.Axis(scale=self.xs, label=self.x_label, grid_lines="dashed", num_ticks=6,
+                            label_offset="32px")
+        self.ax_y = bq.Axis(scale=self.ys, orientation="vertical", label="", grid_lines="dashed",
+                            label_offset="52px")
+        self.figure = bq.Figure(
+            marks=[self.band, self.line], axes=[self.ax_x, self.ax_y],
+            fig_margin=dict(top=12, bottom=46, left=72, right=18), padding_y=0.0,
+            animation_duration=0, display_toolbar=False,
+            layout=W.Layout(width="100%", height=height, min_width="300px"),
+        )
+        self.figure.add_class(self.css)
+        self.readout = W.HTML("<span class='sb-muted'>Move over the plot to read values; click to hold.</span>")
+        self.readout.add_class("sb-readout")
+        self.title = W.HTML(f"<span class='sb-view-title'>{title}</span>", layout=W.Layout(flex="1 1 auto"))
+        self.tool = W.ToggleButtons(options=[("read", "read"), ("zoom", "zoom")], value="read",
+                                    style={"button_width": "58px"}, tooltips=[
+                                        "Move over the plot for values; click to hold the cursor.",
+                                        "Drag to pan, wheel to zoom; 'whole' resets."])
+        self.reset = W.Button(description="whole", layout=W.Layout(width="66px"),
+                              tooltip="Show the whole estimate again (undo zoom).")
+        self.reset.on_click(lambda _: self.reset_zoom())
+        self.tool.observe(lambda ch: self._set_tool(), names="value")
+        self.header = W.HBox([self.title, self.tool, self.reset], layout=W.Layout(align_items="center", gap="4px"))
+        self.footer = W.HBox([self.readout], layout=W.Layout(flex_flow="row wrap", gap="4px 12px",
+                                                              align_items="center"))
+        self._watch_scales()
+        self._set_tool()
+
+    # -- scales and tools ------------------------------------------------------------
+    def _make_scales(self):
+        return bq.LinearScale(), bq.LinearScale()
+
+    def _watch_scales(self) -> None:
+        for s in (self.xs, self.ys):
+            s.observe(self._scale_moved, names=["min", "max"])
+
+    def _unwatch_scales(self) -> None:
+        for s in (self.xs, self.ys):
+            with contextlib.suppress(ValueError):
+                s.unobserve(self._scale_moved, names=["min", "max"])
+
+    def _scale_moved(self, change) -> None:
+        if self._guard:
+            return
+        # the front end panned or zoomed: reduce again over the visible range
+        self.zoomed = True
+        if change["owner"] is self.xs:
+            self.redraw()
+        else:
+            self._ticks()
+
+    def _set_tool(self) -> None:
+        if self.tool.value == "zoom":
+            self.figure.interaction = bq.interacts.PanZoom(scales={"x": [self.xs], "y": [self.ys]})
+        else:
+            sel = bq.interacts.IndexSelector(scale=self.xs, marks=[], color="var(--jp-ui-font-color2)", line_width=1)
+            sel.observe(self._read, names="selected")
+            self.figure.interaction = sel
+
+    def _set_scales(self, xs, ys) -> None:
+        """Swap scales (linear <-> log) on every mark, the axes and the tools."""
+        if xs is self.xs and ys is self.ys:
+            return
+        self._unwatch_scales()
+        self.xs, self.ys = xs, ys
+        for m in self.figure.marks:
+            m.scales = {"x": xs, "y": ys}
+        self.ax_x.scale, self.ax_y.scale = xs, ys
+        self._watch_scales()
+        self._set_tool()
+
+    def reset_zoom(self) -> None:
+        self.zoomed = False
+        self.redraw()
+
+    # -- data --------------------------------------------------------------------------
+    def _trace(self, result, lo, hi) -> Trace:
+        raise NotImplementedError
+
+    def _ylog(self) -> bool:
+        return False
+
+    def _trace_cached(self, result, lo, hi) -> Trace:
+        key = (self._trace_key(), lo, hi)
+        per = self._cache.setdefault(result, {})
+        tr = per.get(key)
+        if tr is None:
+            if len(per) > 8:
+                per.clear()
+            tr = per[key] = self._trace(result, lo, hi)
+        return tr
+
+    def _trace_key(self) -> tuple:
+        return ()
+
+    def visible_range(self) -> tuple[float | None, float | None]:
+        if not self.zoomed:
+            return None, None
+        return self.xs.min, self.xs.max
+
+    def show(self, result, pinned: list[tuple[Any, str, str]] | None = None) -> None:
+        """Put ``result`` (and the pinned results) on screen in one synchronised step."""
+        self.result = result
+        if pinned is not None:
+            self.pinned = list(pinned)
+        self.redraw()
+        if self._read_x is not None:  # the readout follows the new estimate
+            self.readout.value = self._readout_text(self._read_x)
+
+    def redraw(self) -> None:
+        if self.result is None:
+            return
+        lo, hi = self.visible_range()
+        cur = self._trace_cached(self.result, lo, hi)
+        pins = [(self._trace_cached(r, lo, hi), c, d) for r, c, d in self.pinned]
+        while len(self.pin_lines) < len(pins):
+            self.pin_lines.append(bq.Lines(x=np.zeros(0), y=np.zeros(0), scales={"x": self.xs, "y": self.ys},
+                                           stroke_width=1.3, enable_hover=False))
+        used = self.pin_lines[: len(pins)]
+        marks = [self.band, *used, self.line]
+        holds = [self.figure, self.band, self.line, self.ax_y, self.xs, self.ys, *used]
+        with contextlib.ExitStack() as stack:
+            for w in holds:
+                stack.enter_context(w.hold_sync())
+            self.band.x = cur.x
+            self.band.y = np.vstack([cur.upper, cur.lower])
+            self.line.x = cur.x
+            self.line.y = cur.y
+            for m, (tr, colour, dash) in zip(used, pins):
+                m.x, m.y = tr.x, tr.y
+                m.colors = [colour]
+                m.line_style = dash
+                m.scales = {"x": self.xs, "y": self.ys}
+            if list(self.figure.marks) != marks:
+                self.figure.marks = marks
+            self.ax_y.label = self._y_label(cur)
+            if not self.zoomed:
+                traces = [cur] + [p[0] for p in pins]
+                self._fit_y(traces)
+                self._fit_x(traces)
+            self._ticks()
+
+    def _fit_x(self, traces: list[Trace]) -> None:
+        xs = [t.x for t in traces if t.size]
+        self._guard += 1
+        try:
+            if not xs:
+                self.xs.min = self.xs.max = None
+                return
+            lo, hi = min(float(x[0]) for x in xs), max(float(x[-1]) for x in xs)
+            if hi <= lo:
+                lo, hi = (lo / 2, hi * 2) if self._xlog() else (lo - 0.5, hi + 0.5)
+            if self.xs.max is not None and lo > self.xs.max:
+                self.xs.max, self.xs.min = hi, lo
+            else:
+                self.xs.min, self.xs.max = lo, hi
+        finally:
+            self._guard -= 1
+
+    def _xlog(self) -> bool:
+        return False
+
+    def _ticks(self) -> None:
+        """Readable tick values on logarithmic axes (bqplot's own crowd and overlap)."""
+        for ax, scale, log in ((self.ax_x, self.xs, self._xlog()), (self.ax_y, self.ys, self._ylog())):
+            if scale.min is None or scale.max is None:
+                ax.tick_values, ax.tick_format = None, None
+                continue
+            lo, hi = float(scale.min), float(scale.max)
+            if log:
+                ax.tick_values = np.array(log_ticks(lo, hi, most=7 if ax is self.ax_x else 6))
+                ax.tick_format = "~g" if ax is self.ax_x else ".0e"
+            else:
+                ax.tick_values = np.array(linear_ticks(lo, hi, 6 if ax is self.ax_x else 5))
+                ax.tick_format = "~g"
+
+    def _fit_y(self, traces: list[Trace]) -> None:
+        ranges = [t.yrange for t in traces if t.yrange is not None]
+        self._guard += 1
+        try:
+            if not ranges:
+                self.ys.min = self.ys.max = None
+                return
+            lo, hi = min(r[0] for r in ranges), max(r[1] for r in ranges)
+            if self._ylog():
+                if hi <= lo:
+                    lo, hi = lo / 10, hi * 10
+                span = math.log10(hi / lo)
+                lo, hi = lo / 10 ** (0.04 * span), hi * 10 ** (0.04 * span)
+            else:
+                pad = 0.04 * (hi - lo) if hi > lo else max(abs(hi), 1.0) * 0.1
+                lo, hi = lo - pad, hi + pad
+            # set in an order that keeps min <= max at every step
+            if self.ys.max is not None and lo > self.ys.max:
+                self.ys.max, self.ys.min = hi, lo
+            else:
+                self.ys.min, self.ys.max = lo, hi
+        finally:
+            self._guard -= 1
+
+    def _y_label(self, tr: Trace) -> str:
+        return tr.unit
+
+    def marks_points(self) -> dict[str, int]:
+        """Points held by every mark (band rows counted): for the display-budget checks."""
+        out = {"band": int(np.asarray(self.band.y).size), "current": int(np.asarray(self.line.y).size)}
+        for i, m in enumerate(self.pin_lines):
+            if m in self.figure.marks:
+                out[f"pin{i + 1}"] = int(np.asarray(m.y).size)
+        return out
+
+    # -- readout ----------------------------------------------------------------------
+    def _read(self, change) -> None:
+        sel = change["new"]
+        if self.result is None or sel is None or len(sel) == 0:
+            return
+        try:
+            self._read_x = float(sel[0])
+            self.readout.value = self._readout_text(self._read_x)
+        except Exception as e:  # a readout must never raise into the front end
+            self.readout.value = f"<span class='sb-muted'>no reading ({type(e).__name__})</span>"
+
+    def read_at(self, x: float) -> str:
+        """The readout text at ``x`` (what the read tool shows there)."""
+        self._read_x = float(x)
+        self.readout.value = self._readout_text(self._read_x)
+        return self.readout.value
+
+    def _readout_text(self, x: float) -> str:
+        raise NotImplementedError
+
+
+class SpectrumView(_TraceView):
+    css = "sb-psd"
+    x_label = "Frequency (Hz)"
+
+    def __init__(self) -> None:
+        self._xs_lin, self._xs_log = bq.LinearScale(), bq.LogScale()
+        self._ys_lin, self._ys_log = bq.LinearScale(), bq.LogScale()
+        self.kind = "density"
+        self.xlog = True
+        super().__init__("Power spectral density")
+        self.plot_as = W.Dropdown(options=list(PLOT_AS), value="density", description="plot as",
+                                  style={"description_width": "52px"}, layout=W.Layout(width="200px"))
+        self.plot_as.tooltip = "How the estimate is drawn; the estimate itself does not change."
+        self.freq_axis = W.ToggleButtons(options=[("log", "log"), ("linear", "linear")], value="log",
+                                         style={"button_width": "66px"},
+                                         tooltips=["Logarithmic frequency axis.", "Linear frequency axis."])
+        self.plot_as.observe(lambda ch: self.set_display(kind=ch["new"]), names="value")
+        self.freq_axis.observe(lambda ch: self.set_display(xlog=ch["new"] == "log"), names="value")
+        self.footer.children = [self.plot_as, self.freq_axis, self.readout]
+
+    def _make_scales(self):
+        return self._xs_log, self._ys_log
+
+    def _ylog(self) -> bool:
+        return self.kind != "db"
+
+    def _xlog(self) -> bool:
+        return self.xlog
+
+    def _trace_key(self) -> tuple:
+        return (self.kind, self.xlog)
+
+    def _trace(self, result, lo, hi) -> Trace:
+        return spectrum_trace(result, self.kind, self.xlog, lo, hi)
+
+    def set_display(self, kind: str | None = None, xlog: bool | None = None) -> None:
+        if kind is not None:
+            self.kind = kind
+        if xlog is not None:
+            self.xlog = xlog
+        xs = self._xs_log if self.xlog else self._xs_lin
+        ys = self._ys_log if self._ylog() else self._ys_lin
+        self.zoomed = False
+        self._set_scales(xs, ys)
+        self.redraw()
+
+    def _y_label(self, tr: Trace) -> str:
+        name = {"density": "PSD", "asd": "ASD", "db": "PSD", "power": "Power"}[self.kind]
+        return f"{name} ({tr.unit})" if tr.unit else name
+
+    def _readout_text(self, x: float) -> str:
+        spec = self.result
+        f = spec.freq
+        i = int(np.clip(np.searchsorted(f, x), 0, f.size - 1))
+        if i > 0 and abs(f[i - 1] - x) <= abs(f[i] - x):
+            i -= 1
+        value, lower, upper, unit = spec.view(self.kind)
+        dof = np.broadcast_to(spec.dof, spec.value.shape)[..., i]
+        return (f"<b>{fmt(f[i])} Hz</b> &nbsp; {fmt(value[i])} {unit} &nbsp; "
+                f"<span class='sb-muted'>{spec.confidence:.0%} band</span> [{fmt(lower[i])}, {fmt(upper[i])}]"
+                f" &nbsp; <span class='sb-muted'>dof</span> {fmt(float(dof))}")
+
+
+class CorrelationView(_TraceView):
+    css = "sb-acf"
+    x_label = "Lag (s)"
+
+    def __init__(self) -> None:
+        super().__init__("Autocorrelation")
+
+    def _trace(self, result, lo, hi) -> Trace:
+        return correlation_trace(result, lo, hi)
+
+    def _y_label(self, tr: Trace) -> str:
+        return f"Autocovariance ({tr.unit})" if tr.unit else "Autocorrelation"
+
+    def _readout_text(self, x: float) -> str:
+        c = self.result
+        lag = c.lag
+        i = int(np.clip(np.searchsorted(lag, x), 0, lag.size - 1))
+        if i > 0 and abs(lag[i - 1] - x) <= abs(lag[i] - x):
+            i -= 1
+        unit = f" {c.unit}" if c.unit else ""
+        band = "white-noise band" if c.band == "white" else "Bartlett band"
+        return (f"<b>lag {fmt(lag[i])} s</b> ({i} samples) &nbsp; {fmt(c.value[i])}{unit} &nbsp; "
+                f"<span class='sb-muted'>{c.confidence:.0%} {band}</span> [{fmt(c.lower[i])}, {fmt(c.upper[i])}]")

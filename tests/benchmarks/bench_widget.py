@@ -1,0 +1,99 @@
+"""Benchmark: Workbench control change to updated marks (Python side).
+
+Drives the controls of a Workbench programmatically, as a user's change arrives from the
+front end, with no event loop running (so every change computes before it returns), and
+times each change from setting the control's value to the marks holding the new
+estimate.  Every change asks for settings not seen before, so no cached result is reused.
+
+Targets (the issue): median under 50 ms at 1e6 samples and under 150 ms at 1e7 samples,
+Welch with segment length 4096.  Printed beside each median: the target, the ratio to it,
+and the bare estimator time of the same settings measured in the same run (the
+reference: what the widget adds on top of the estimate).
+
+Run: ``python tests/benchmarks/bench_widget.py`` (add ``--quick`` for fewer repeats).
+Not part of the default test run.
+"""
+
+from __future__ import annotations
+
+import argparse
+import statistics
+import time
+
+import numpy as np
+
+import specbench as sb
+
+TARGETS_MS = {1_000_000: 50.0, 10_000_000: 150.0}
+
+
+def make_signal(n: int, fs: float = 10_000.0) -> sb.Signal:
+    rng = np.random.default_rng(42)
+    t = np.arange(n) / fs
+    x = rng.standard_normal(n)
+    x += 2.0 * np.sin(2 * np.pi * 123.4 * t) + 0.3 * np.sin(2 * np.pi * 1717.0 * t)
+    return sb.Signal(x, fs=fs, channels=["x"], unit="V")
+
+
+def changes(repeats: int):
+    """(control name, value) pairs: each gives a Welch (segment 4096) not computed before."""
+    windows = ["hamming", "blackman", "hann", "nuttall", "blackmanharris", "bartlett", "parzen", "bohman"]
+    out = []
+    for i in range(repeats):
+        out.append(("window", windows[i % len(windows)] if i < len(windows) else ("kaiser", 4.0 + i / 7)))
+        out.append(("overlap", round(0.30 + 0.01 * i, 2)))
+        out.append(("confidence", round(0.80 + 0.004 * i, 3)))
+        out.append(("detrend", ("linear", "none", "constant")[i % 3]))
+    return out
+
+
+def bench(n: int, repeats: int) -> dict[str, float]:
+    sig = make_signal(n)
+    bench = sb.Workbench(sig, sb.Welch(segment_length=4096))
+    controls = bench.controls
+    per_control: dict[str, list[float]] = {}
+    bare: list[float] = []
+    for name, value in changes(repeats):
+        t0 = time.perf_counter()
+        controls[name].value = value
+        dt = time.perf_counter() - t0
+        est = bench.estimator
+        assert bench.spectrum.estimator == est, f"{name}={value!r} not applied: {bench.status}"
+        assert getattr(est, name) == value or name == "window", (name, value, est)
+        per_control.setdefault(name, []).append(dt)
+        # the reference: the estimator alone on the same samples
+        t1 = time.perf_counter()
+        est(bench.selected)
+        bare.append(time.perf_counter() - t1)
+    points = bench.mark_points()
+    assert max(points.values()) <= 5000, points
+    every = [t for ts in per_control.values() for t in ts]
+    out = {f"{k}": statistics.median(v) * 1e3 for k, v in per_control.items()}
+    out["all"] = statistics.median(every) * 1e3
+    out["estimator alone"] = statistics.median(bare) * 1e3
+    return out
+
+
+def main() -> None:
+    ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
+    ap.add_argument("--quick", action="store_true", help="fewer repeats")
+    args = ap.parse_args()
+    repeats = 4 if args.quick else 10
+    print("Workbench: control change -> updated marks, Welch(segment_length=4096), Python side")
+    ok = True
+    for n, target in TARGETS_MS.items():
+        r = bench(n, repeats)
+        med = r["all"]
+        ok &= med < target
+        print(f"\n{n:>12,} samples: median {med:7.1f} ms  target < {target:.0f} ms  "
+              f"ratio {med / target:.2f}  {'OK' if med < target else 'OVER TARGET'}")
+        print(f"{'':>14}estimator alone (same settings, same run): {r['estimator alone']:.1f} ms; "
+              f"widget adds {med - r['estimator alone']:.1f} ms")
+        for k, v in r.items():
+            if k not in ("all", "estimator alone"):
+                print(f"{'':>14}{k:<12} median {v:7.1f} ms")
+    print("\nall targets met" if ok else "\nSOME TARGETS MISSED")
+
+
+if __name__ == "__main__":
+    main()
