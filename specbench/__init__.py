@@ -47,3 +47,11 @@ try:  # the data layer (Signal, load, demo) registers converters for pandas/xarr
     __all__ += ["Signal", "demo", "demos", "load"]
 except ImportError:  # pragma: no cover - only while the data layer is being written
     pass
+
+try:  # the Workbench needs the lab extra (ipywidgets, bqplot); specbench imports without it
+    from .widgets import Workbench  # noqa: F401
+
+    __all__ += ["Workbench"]
+except ImportError as _missing:  # pragma: no cover - only without the lab extra
+    if getattr(_missing, "name", None) not in ("ipywidgets", "bqplot", "traitlets"):
+        raise
