@@ -176,6 +176,10 @@ def estimate_file(args: argparse.Namespace, progress: _Progress) -> dict:
     if args.acf_out is not None and settings.correlation is None:
         raise BatchError(f"--acf-out was given, but {str(args.settings)!r} holds no correlation estimator.")
     kwargs, steps = _load_options(settings, args)
+    data = settings.data or {}
+    if data.get("kind") == "demo" and data.get("steps"):
+        progress.say(f"note: the settings were made on demo data cut with {data['steps']}; those cuts "
+                     "belong to the demo and are not applied to DATA (the selection is).")
     load_call = "sb.load(" + ", ".join([repr(str(args.data))] + [f"{k}={v!r}" for k, v in kwargs.items()]) + ")"
     with progress.phase(f"reading {args.data}") as ph:
         sig = sb.load(args.data, **kwargs)
