@@ -41,17 +41,22 @@ __all__ = [
     "window_info",
 ]
 
-try:  # the data layer (Signal, load, demo) registers converters for pandas/xarray
-    from .data import Signal, demo, demos, load  # noqa: F401
+from .data import Signal, demo, demos, load  # noqa: E402  (registers the pandas/xarray converters)
 
-    __all__ += ["Signal", "demo", "demos", "load"]
-except ImportError:  # pragma: no cover - only while the data layer is being written
-    pass
+__all__ += ["Signal", "demo", "demos", "load", "Workbench"]
 
-try:  # the Workbench needs the lab extra (ipywidgets, bqplot); specbench imports without it
-    from .widgets import Workbench  # noqa: F401
 
-    __all__ += ["Workbench"]
-except ImportError as _missing:  # pragma: no cover - only without the lab extra
-    if getattr(_missing, "name", None) not in ("ipywidgets", "bqplot", "traitlets"):
-        raise
+def __getattr__(name: str):
+    """``sb.Workbench`` is imported on first use: it needs the ``lab`` extra (ipywidgets,
+    bqplot, which pulls pandas), and a plain ``import specbench`` must stay light."""
+    if name == "Workbench":
+        try:
+            from .widgets import Workbench
+        except ImportError as e:
+            raise ImportError(
+                f"sb.Workbench needs JupyterLab widgets ({e.name} is missing). "
+                'Install them with: pip install "specbench[lab]"'
+            ) from e
+        globals()["Workbench"] = Workbench
+        return Workbench
+    raise AttributeError(f"module 'specbench' has no attribute {name!r}")

@@ -21,8 +21,8 @@ __all__ = ["Samples", "as_samples", "register_converter"]
 _CONVERTERS: list[Callable[[Any], Any]] = []
 
 
-def register_converter(func: Callable[[Any], Any]) -> None:
-    """Register ``func(obj) -> signal-like or None`` for containers this layer does not know."""
+def register_converter(func: Callable[..., Any]) -> None:
+    """Register ``func(obj, fs=None) -> signal-like or None`` for containers this layer does not know."""
     if func not in _CONVERTERS:
         _CONVERTERS.append(func)
 
@@ -65,13 +65,14 @@ def _check_fs(fs: Any) -> float:
 def as_samples(x: Any, fs: Any = None, *, min_samples: int = 2) -> Samples:
     """Validate ``x`` (array or signal-like) and return :class:`Samples`.
 
-    Integer and boolean arrays are converted to float64; float32 stays float32 so that
-    the engines can work in single precision without copying the record.
+    Float32 stays float32 so that the engines can work in single precision, and integer
+    arrays (an int16 memory map, say) stay integer: the engines convert block by block,
+    so the record is never copied whole.  Booleans become float64.
     """
     obj = x
     if not _is_signal_like(obj) and not isinstance(obj, np.ndarray):
         for conv in _CONVERTERS:
-            converted = conv(obj)
+            converted = conv(obj, fs=fs)
             if converted is not None:
                 obj = converted
                 break
@@ -118,8 +119,10 @@ def as_samples(x: Any, fs: Any = None, *, min_samples: int = 2) -> Samples:
 
 def _as_numeric(data: Any) -> np.ndarray:
     arr = data if isinstance(data, np.ndarray) else np.asarray(data)
-    if arr.dtype.kind in "biu":
+    if arr.dtype.kind == "b":
         return arr.astype(np.float64)
+    if arr.dtype.kind in "iu":
+        return arr
     if arr.dtype.kind == "f":
         if arr.dtype.itemsize < 4:
             return arr.astype(np.float32)

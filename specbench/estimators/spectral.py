@@ -46,7 +46,7 @@ from ._common import (
     window_field,
 )
 from ._dof import band_factors, edge_bins, median_dof_factor, welch_dof
-from ._engine import detrended_variance, segment_power
+from ._engine import clean_segments, detrended_variance, segment_power
 from ._params import Boolean, Interval, Optional, Options, param
 from ._results import Spectrum
 from .correlation import detrended_copyless_products
@@ -180,11 +180,14 @@ def _averaged_periodogram(
     used_len = (n_all - 1) * step + nperseg
     if mask is None:
         variance = detrended_variance(x[:, :used_len], est.detrend)
-    else:
-        covered = np.zeros(n, dtype=bool)
-        for s in segments:
-            covered[s * step : s * step + nperseg] = True
-        variance = detrended_variance(x[:, covered], est.detrend)
+    else:  # each clean stretch detrended on its own, weighted by its length
+        ends = segments * step + nperseg
+        breaks = np.nonzero(segments[1:] * step > ends[:-1])[0]
+        run_first = np.r_[segments[0], segments[breaks + 1]] * step
+        run_last = np.r_[ends[breaks], ends[-1]]
+        lengths = run_last - run_first
+        parts = [detrended_variance(x[:, a:b], est.detrend) for a, b in zip(run_first, run_last)]
+        variance = np.average(np.stack(parts), axis=0, weights=lengths)
     return dict(
         value=value,
         dof=dof,
@@ -318,13 +321,9 @@ class Welch(SpectralEstimator):
         step = nperseg - self.noverlap
         mask = None
         if self.gaps == "skip":
-            n_all = (n - nperseg) // step + 1
-            bad = np.zeros(n + 1, dtype=np.int64)
-            bad[1:] = np.cumsum(~np.all(np.isfinite(x), axis=0))
-            starts = np.arange(n_all) * step
-            m = (bad[starts + nperseg] - bad[starts]) == 0
-            if not m.all():
-                mask = m
+            clean = clean_segments(x, nperseg, step)
+            if not clean.all():
+                mask = clean
         return _averaged_periodogram(
             self, x, fs, onesided, nperseg=nperseg, step=step,
             nfft=self.nfft or nperseg, average=self.average, mask=mask,

@@ -72,13 +72,19 @@ def main():
                     ref = scipy.signal.welch(x, nperseg=nperseg, noverlap=nov)[1]
                     got = est(x, fs=1.0).value
                     err = float(np.max(np.abs(got - ref) / ref.max()))
-                    t_sp = timed(lambda: scipy.signal.welch(x, nperseg=nperseg, noverlap=nov), repeats)
-                    t_sb = timed(lambda: est(x, fs=1.0), repeats)
+                    def run_scipy(x=x, nperseg=nperseg, nov=nov):
+                        return scipy.signal.welch(x, nperseg=nperseg, noverlap=nov)
+
+                    def run_sb(x=x, est=est):
+                        return est(x, fs=1.0)
+
+                    t_sp = timed(run_scipy, repeats)
+                    t_sb = timed(run_sb, repeats)
                     floor = fft_floor(x, nperseg, nov)
                     t_fl = timed(floor, repeats)
                     del floor
-                    m_sp = peak_extra(lambda: scipy.signal.welch(x, nperseg=nperseg, noverlap=nov))
-                    m_sb = peak_extra(lambda: est(x, fs=1.0))
+                    m_sp = peak_extra(run_scipy)
+                    m_sb = peak_extra(run_sb)
                     print(f"{n:>9.0e} {np.dtype(dtype).name:>7} {nperseg:>7} {overlap:>4} | {t_sp * 1e3:>9.1f} "
                           f"{t_sb * 1e3:>8.1f} {t_fl * 1e3:>8.1f} | {t_sp / t_sb:>6.1f}x {t_sb / t_fl:>7.2f}x | "
                           f"{m_sp / 2**20:>8.1f} {m_sb / 2**20:>6.1f} {m_sb / m_sp:>9.3f}   (max rel. diff {err:.1e})")
