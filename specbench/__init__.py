@@ -42,8 +42,10 @@ __all__ = [
 ]
 
 from .data import Signal, demo, demos, load  # noqa: E402  (registers the pandas/xarray converters)
+from .freeze import Settings, load_settings, read_settings, save_settings  # noqa: E402
 
-__all__ += ["Signal", "demo", "demos", "load", "Workbench"]
+__all__ += ["Signal", "demo", "demos", "load", "Workbench", "Settings", "load_settings", "read_settings",
+            "save_settings"]
 
 
 def __getattr__(name: str):
