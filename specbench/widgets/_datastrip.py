@@ -17,7 +17,7 @@ import numpy as np
 
 from ._controls import ENTRY_WIDTH, ChoiceControl, FieldControl, _assign
 from ._reduce import overview
-from ._style import CURRENT
+from ._style import CURRENT, gapped
 from ._views import fmt, linear_ticks
 
 __all__ = ["DataStrip", "RateControl", "SpanControl"]
@@ -104,7 +104,7 @@ class DataStrip:
         self.channel.dropdown.disabled = len(names) == 1
         self.rate = RateControl(signal.fs)
         self.span = SpanControl()
-        self.fields_box = W.HBox(layout=W.Layout(flex_flow="row wrap", gap="2px 18px"))
+        self.fields_box = gapped(W.HBox(layout=W.Layout(flex_flow="row wrap")), "wide")
         self.info = W.HTML()
         self.info.add_class("sb-data-info")
 
@@ -116,7 +116,7 @@ class DataStrip:
         self.brush.observe(self._brushed, names=["brushing", "selected"])
         self.ax_x = ax_x = bq.Axis(scale=self.xs, label="Time from record start (s)", label_offset="30px",
                                    tick_format="~g")
-        self.ax_y = bq.Axis(scale=self.ys, orientation="vertical", num_ticks=3, label_offset="48px")
+        self.ax_y = bq.Axis(scale=self.ys, side="left", num_ticks=3, label_offset="48px")
         self.figure = bq.Figure(
             marks=[self.trace], axes=[ax_x, self.ax_y], interaction=self.brush,
             fig_margin=dict(top=6, bottom=40, left=72, right=18), padding_y=0.05, animation_duration=0,
@@ -126,10 +126,10 @@ class DataStrip:
         self.figure.add_class("sb-overview")
         hint = W.HTML("<span class='sb-muted'>Brush the trace to choose the span; click outside the "
                       "brushed part to clear it.</span>")
-        row1 = W.HBox([self.channel, self.rate, self.rate.back], layout=W.Layout(flex_flow="row wrap",
-                                                                                  gap="2px 18px"))
-        row2 = W.HBox([self.span, self.span.whole, self.fields_box],
-                      layout=W.Layout(flex_flow="row wrap", gap="2px 18px", align_items="flex-start"))
+        row1 = gapped(W.HBox([self.channel, self.rate, self.rate.back], layout=W.Layout(flex_flow="row wrap")),
+                      "wide")
+        row2 = gapped(W.HBox([self.span, self.span.whole, self.fields_box],
+                             layout=W.Layout(flex_flow="row wrap", align_items="flex-start")), "wide")
         self.widget = W.VBox([row1, row2, self.info, self.figure, hint])
         self.widget.add_class("sb-datastrip")
         self.on_brush = None  # set by the workbench: callable(span or None)

@@ -16,7 +16,7 @@ from typing import Any
 import ipywidgets as W
 
 from ._merit import spectrum_merits
-from ._style import DASH_ARRAY, PIN_STYLES
+from ._style import DASH_ARRAY, PIN_STYLES, gapped
 
 __all__ = ["Pin", "PinBoard", "MAX_PINS", "settings_of", "auto_labels"]
 
@@ -125,8 +125,8 @@ class PinBoard:
         self.count = W.HTML()
         self.table = W.VBox()
         self.table.add_class("sb-pin-table")
-        head = W.HBox([self.pin_button, self.clear_button, self.count], layout=W.Layout(align_items="center",
-                                                                                         gap="6px"))
+        head = gapped(W.HBox([self.pin_button, self.clear_button, self.count],
+                             layout=W.Layout(align_items="center")), "small")
         self.widget = W.VBox([head, self.table])
         self.widget.add_class("sb-pins")
         self.show([])

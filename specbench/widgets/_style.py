@@ -66,9 +66,18 @@ _CSS = """
 .sb-workbench .sb-pin-row .sb-pin-settings { color: var(--jp-ui-font-color2);
   font-family: var(--jp-code-font-family); font-size: var(--jp-code-font-size, 12px); }
 .sb-workbench .sb-view-title { font-weight: 600; }
+.sb-workbench .sb-gap-small { gap: 4px 6px; }
+.sb-workbench .sb-gap-medium { gap: 4px 12px; }
+.sb-workbench .sb-gap-wide { gap: 2px 18px; }
 .sb-workbench .bqplot .mainheading { font-size: 13px; }
 </style>
 """
+
+
+def gapped(box: W.Box, size: str) -> W.Box:
+    """Space a box's children ("small", "medium" or "wide"); ipywidgets' Layout has no gap."""
+    box.add_class(f"sb-gap-{size}")
+    return box
 
 
 def style_sheet() -> W.HTML:

@@ -25,7 +25,7 @@ import ipywidgets as W
 import numpy as np
 
 from ._reduce import reduce_sorted
-from ._style import BAND_OPACITY, CURRENT
+from ._style import BAND_OPACITY, CURRENT, gapped
 
 __all__ = ["Trace", "SpectrumView", "CorrelationView", "spectrum_trace", "correlation_trace", "fmt"]
 
@@ -163,7 +163,7 @@ class _TraceView:
         self.pin_lines: list[bq.Lines] = []
         self.ax_x = bq.Axis(scale=self.xs, label=self.x_label, grid_lines="dashed", num_ticks=6,
                             label_offset="32px")
-        self.ax_y = bq.Axis(scale=self.ys, orientation="vertical", label="", grid_lines="dashed",
+        self.ax_y = bq.Axis(scale=self.ys, side="left", label="", grid_lines="dashed",
                             label_offset="52px")
         self.figure = bq.Figure(
             marks=[self.band, self.line], axes=[self.ax_x, self.ax_y],
@@ -183,9 +183,10 @@ class _TraceView:
                               tooltip="Show the whole estimate again (undo zoom).")
         self.reset.on_click(lambda _: self.reset_zoom())
         self.tool.observe(lambda ch: self._set_tool(), names="value")
-        self.header = W.HBox([self.title, self.tool, self.reset], layout=W.Layout(align_items="center", gap="4px"))
-        self.footer = W.HBox([self.readout], layout=W.Layout(flex_flow="row wrap", gap="4px 12px",
-                                                              align_items="center"))
+        self.header = gapped(W.HBox([self.title, self.tool, self.reset], layout=W.Layout(align_items="center")),
+                             "small")
+        self.footer = gapped(W.HBox([self.readout], layout=W.Layout(flex_flow="row wrap", align_items="center")),
+                             "medium")
         self._watch_scales()
         self._set_tool()
 

@@ -46,11 +46,12 @@ import ipywidgets as W
 from .._errors import InputError, SettingsError, SpecbenchError, SpecbenchWarning
 from ..estimators import Autocorrelation, SpectralEstimator, Welch, estimator_classes
 from ..estimators._dof import band_factors
+from ..freeze._state import FreezeState, Selection
 from ._controls import ChoiceControl, Context, FieldControl, OptionalControl, control_for
 from ._datastrip import DataStrip
 from ._merit import MeritPanel, spectrum_merits
 from ._pins import MAX_PINS, PIN_STYLES, Pin, PinBoard, auto_labels, settings_of
-from ._style import style_sheet
+from ._style import gapped, style_sheet
 from ._views import CorrelationView, SpectrumView, fmt
 
 __all__ = ["Workbench"]
@@ -70,6 +71,7 @@ COALESCE_SECONDS = 0.02
 RESULT_CACHE = 24
 RESULT_CACHE_MAX_BINS = 1 << 17
 
+DATA_KEYS = ("channel", "fs", "span")
 _FIELD_IN_MESSAGE = re.compile(r"The '?([A-Za-z_]\w*)'? (?:parameter )?of (\w+)")
 
 
@@ -237,6 +239,7 @@ class Workbench(W.VBox):
         self._selected_cache: OrderedDict = OrderedDict()
         self._last_update = math.nan
         self._last_of: dict[type, SpectralEstimator] = {}
+        self._carried: dict[str, Any] = {}  # fields carried over by a method switch -> own value
         self._slow = False
 
         # panels
@@ -277,11 +280,11 @@ class Workbench(W.VBox):
                          layout=W.Layout(flex="1 1 0", min_width="340px"))
         acf_box = W.VBox([self._acf.header, self._acf.figure, self._acf.footer],
                          layout=W.Layout(flex="1 1 0", min_width="340px"))
-        views = W.HBox([psd_box, acf_box], layout=W.Layout(width="100%", flex_flow="row wrap", gap="10px"))
-        right = W.VBox([views, self._status, self._section("Figures of merit"), self._merit.widget,
-                        self._section("Pins"), self._board.widget],
-                       layout=W.Layout(flex="1 1 auto", min_width="0", gap="4px"))
-        main = W.HBox([self._controls_box, right], layout=W.Layout(width="100%", gap="14px"))
+        views = gapped(W.HBox([psd_box, acf_box], layout=W.Layout(width="100%", flex_flow="row wrap")), "medium")
+        right = gapped(W.VBox([views, self._status, self._section("Figures of merit"), self._merit.widget,
+                               self._section("Pins"), self._board.widget],
+                              layout=W.Layout(flex="1 1 auto", min_width="0")), "small")
+        main = gapped(W.HBox([self._controls_box, right], layout=W.Layout(width="100%")), "wide")
         children = [style_sheet(), self._strip.widget, main]
         panel = self._freeze_panel()
         if panel is not None:
@@ -467,7 +470,10 @@ class Workbench(W.VBox):
         cls = next(c for c in spectral_classes() if c.kind == kind)
         current = self._next_est or self._est
         self._last_of[type(current)] = current
-        est = carry_over(current, cls, self._last_of.get(cls))
+        base = self._last_of.get(cls) or cls()
+        est = carry_over(current, cls, base)
+        self._carried = {k: getattr(base, k) for k, v in current.changed_fields().items()
+                         if k in cls.params() and getattr(est, k) == v and getattr(base, k) != v}
         self._changed.add("method")
         self._apply_to_controls(est, self._next_corr or self._corr_est)
         self._errors.pop("build-psd", None)
@@ -558,13 +564,10 @@ class Workbench(W.VBox):
         cached = self._selected_cache.get(sel)
         if cached is not None:
             return cached
-        sig = self._signal
-        if sig.n_channels > 1:
-            sig = sig.channel(sel.channel)
-        if sel.fs is not None:
-            sig = sig.with_fs(sel.fs)
-        if sel.span is not None:
-            sig = sig.span(*sel.span)
+        # the freeze layer's Selection is the one order of steps (rate, channel, span) that the
+        # frozen code repeats, so the workbench analyses exactly the samples the code will
+        channel = sel.channel if self._signal.n_channels > 1 else None
+        sig = Selection(channel=channel, span=sel.span, fs=sel.fs).apply(self._signal)
         self._selected_cache[sel] = sig
         while len(self._selected_cache) > 8:
             self._selected_cache.popitem(last=False)
@@ -633,7 +636,15 @@ class Workbench(W.VBox):
         need_psd = sel_changed or est != self._est or self._spectrum is None
         need_acf = sel_changed or corr != self._corr_est or self._correlation is None
         if not (need_psd or need_acf):
+            # the controls ask for what is on screen: earlier failures no longer apply
             self._next_sel = self._next_est = self._next_corr = None
+            for group in ("psd", "acf", "data"):
+                self._errors.pop(group, None)
+            self._clear_marks({k: self._all_controls()[k] for k in DATA_KEYS})
+            if "build-psd" not in self._errors:
+                self._clear_marks(self._spec_ctrls)
+            if "build-acf" not in self._errors:
+                self._clear_marks(self._acf_ctrls)
             self._show_status()
             return
         sel_keys = [k for k in changed if k in ("channel", "fs", "span")] or ["span"]
@@ -646,15 +657,28 @@ class Workbench(W.VBox):
         psd_err = acf_err = None
         if need_psd:
             spec, psd_err = self._attempt(est, sig, sel)
+            # a field carried over by a method switch that this data refuses goes back
+            while psd_err and self._field_in(psd_err) in self._carried:
+                name = self._field_in(psd_err)
+                own = self._carried.pop(name)
+                self._notes.append(f"{name}={getattr(est, name)!r} was not carried over to "
+                                   f"{type(est).__name__}: {psd_err}")
+                est = est.replace(**{name: own})
+                self._applying += 1
+                try:
+                    self._spec_ctrls[name].set_value_quietly(own)
+                finally:
+                    self._applying -= 1
+                spec, psd_err = self._attempt(est, sig, sel)
+            self._carried = {}
         if need_acf:
             corr_res, acf_err = self._attempt(corr, sig, sel)
         if sel_changed and (psd_err or acf_err):
             # a new selection is taken whole or not at all: both views show the same data
             msg = psd_err or acf_err
             self._fail("data", "The new data selection was not applied: " + msg, sel_keys)
-            named = self._all_controls().get(self._field_in(msg) or "")
-            if isinstance(named, FieldControl):
-                named.set_invalid(msg)
+            for k in sel_keys:  # the change that failed, besides the field the message names
+                self._all_controls()[k].set_invalid(msg)
             return
         self._errors.pop("data", None)
         if sel_changed:
@@ -974,9 +998,7 @@ class Workbench(W.VBox):
 
     # ------------------------------------------------------------------ freeze
     def freeze_state(self):
-        """Everything the frozen code cell depends on (:class:`specbench.freeze._state.FreezeState`)."""
-        from ..freeze._state import FreezeState
-
+        """Everything the frozen code cell depends on (:class:`specbench.freeze.FreezeState`)."""
         return FreezeState(
             signal=self._signal, data_name=self._data_name, channel=self.channel, span=self.span,
             fs_override=self.fs_override, estimator=self._est, correlation_estimator=self._corr_est,
@@ -989,11 +1011,14 @@ class Workbench(W.VBox):
 
         return code_cell(self.freeze_state(), style=style)
 
-    def freeze(self, path: Any = None) -> str:
-        """Freeze the settings on screen into a code cell (and a settings file at ``path``)."""
+    def freeze(self, path: Any = None, *, style: str = "specbench") -> str:
+        """Freeze the settings on screen: a code cell inserted below (and a settings file at ``path``).
+
+        Run it in a cell, not from a widget callback (see :func:`specbench.freeze.freeze`).
+        """
         from ..freeze import freeze
 
-        return freeze(self.freeze_state(), path=path)
+        return freeze(self.freeze_state(), path=path, style=style)
 
     def __repr__(self) -> str:
         sel = self._sel
