@@ -8,6 +8,8 @@ depend on the number of threads: the same input gives the same bits on every run
 
 from __future__ import annotations
 
+import contextlib
+import contextvars
 import math
 import os
 import threading
@@ -27,6 +29,7 @@ __all__ = [
     "detrended_variance",
     "block_segments",
     "ordered_map",
+    "reporting_progress",
 ]
 
 _POOL: ThreadPoolExecutor | None = None
@@ -44,23 +47,53 @@ def _pool() -> ThreadPoolExecutor:
     return _POOL
 
 
+#: ``callback(done, total)`` told after each block of a pass; see :func:`reporting_progress`
+_PROGRESS: contextvars.ContextVar[Callable[[int, int], None] | None] = contextvars.ContextVar(
+    "specbench_progress", default=None
+)
+
+
+@contextlib.contextmanager
+def reporting_progress(callback: Callable[[int, int], None]):
+    """Within the block, every streamed pass over a record calls ``callback(done, total)``
+    after each block (from the calling thread).  An estimate may make several passes
+    (one per taper, say): ``done`` starts again at 1 for each.
+    """
+    token = _PROGRESS.set(callback)
+    try:
+        yield
+    finally:
+        _PROGRESS.reset(token)
+
+
 def ordered_map(func: Callable, items: Sequence) -> Iterator:
     """``func(i) for i in items``, in order, on the worker threads.
 
     At most ``2 * threads`` items are in flight, so results that are consumed as they come
     (summed, say) take bounded memory however many items there are.
     """
-    if len(items) <= 1 or _THREADS == 1:
-        yield from (func(i) for i in items)
+    report = _PROGRESS.get()
+    total = len(items)
+    done = 0
+
+    def tick(result):
+        nonlocal done
+        done += 1
+        if report is not None:
+            report(done, total)
+        return result
+
+    if total <= 1 or _THREADS == 1:
+        yield from (tick(func(i)) for i in items)
         return
     pool = _pool()
     window: deque = deque()
     for item in items:
         window.append(pool.submit(func, item))
         if len(window) >= 2 * _THREADS:
-            yield window.popleft().result()
+            yield tick(window.popleft().result())
     while window:
-        yield window.popleft().result()
+        yield tick(window.popleft().result())
 
 
 def block_segments(nperseg: int) -> int:

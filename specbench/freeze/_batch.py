@@ -26,6 +26,7 @@ from typing import Any
 import numpy as np
 
 from .._errors import SpecbenchError
+from ..estimators._engine import reporting_progress
 from ._describe import now_iso, specbench_version
 from ._settings import Settings, read_settings
 from ._state import Selection, apply_steps
@@ -73,8 +74,10 @@ def _rate(text: str) -> float:
 class _Progress:
     """Phase messages on stderr; on a terminal, a running clock while a long phase works.
 
-    The estimators report no fraction done, so nothing here pretends to know one: the
-    phases are named as they start and finish, with their elapsed time.
+    The phases are named as they start and finish, with their elapsed time; while an
+    estimate streams over the record, the clock line also shows the blocks done of the
+    current pass (``specbench.estimators._engine.reporting_progress``), so the fraction is
+    the engine's own count, never a guess.
     """
 
     def __init__(self, stream: Any, quiet: bool) -> None:
@@ -95,6 +98,14 @@ class _Phase:
         self.p, self.text, self.ticking = progress, text, ticking
         self.done = threading.Event()
         self.note = "done"
+        self.blocks: tuple[int, int] | None = None
+        self.passes = 0
+
+    def blocks_done(self, done: int, total: int) -> None:
+        """Engine callback: ``done`` of ``total`` blocks of the current pass."""
+        if done == 1:
+            self.passes += 1
+        self.blocks = (done, total)
 
     def __enter__(self) -> _Phase:
         self.t0 = time.perf_counter()
@@ -110,7 +121,12 @@ class _Phase:
     def _tick(self) -> None:
         while not self.done.wait(0.5):
             elapsed = time.perf_counter() - self.t0
-            print(f"\rspecbench estimate: {self.text} ... {elapsed:5.1f} s", end="", file=self.p.stream, flush=True)
+            where = ""
+            if self.blocks is not None:
+                done, total = self.blocks
+                where = f", pass {self.passes}: {_bar(done / total)} {done}/{total} blocks"
+            print(f"\rspecbench estimate: {self.text} ... {elapsed:5.1f} s{where}", end="",
+                  file=self.p.stream, flush=True)
 
     def __exit__(self, exc_type, *rest) -> None:
         self.done.set()
@@ -123,6 +139,11 @@ class _Phase:
             print(f"\rspecbench estimate: {self.text} ... {end} ({elapsed:.1f} s)", file=self.p.stream, flush=True)
         elif exc_type is None:
             print(f"specbench estimate:   {self.note} ({elapsed:.1f} s)", file=self.p.stream, flush=True)
+
+
+def _bar(fraction: float, width: int = 20) -> str:
+    full = int(round(fraction * width))
+    return "[" + "#" * full + "." * (width - full) + "]"
 
 
 # --------------------------------------------------------------------------- the work
@@ -192,12 +213,13 @@ def estimate_file(args: argparse.Namespace, progress: _Progress) -> dict:
         ph.note = f"{root.n_channels} x {root.n_samples:,} samples at {root.fs:.9g} Hz ({kind})"
     total = sig.n_channels * sig.n_samples
     long = total > LONG_INPUT
-    with progress.phase(f"estimating {est!r} on {sig.n_channels} x {sig.n_samples:,} samples", long) as ph:
+    with progress.phase(f"estimating {est!r} on {sig.n_channels} x {sig.n_samples:,} samples", long) as ph, \
+            reporting_progress(ph.blocks_done):
         spec = est(sig)
         ph.note = f"{spec.value.shape[-1]:,} frequencies"
     corr = None
     if args.acf_out is not None:
-        with progress.phase(f"estimating {settings.correlation!r}", long) as ph:
+        with progress.phase(f"estimating {settings.correlation!r}", long) as ph, reporting_progress(ph.blocks_done):
             corr = settings.correlation(sig)
             ph.note = f"{corr.value.shape[-1]:,} lags"
     meta = _metadata(args, settings, load_call, steps, selection, sig, spec)

@@ -206,3 +206,19 @@ def test_console_command_prints_no_traceback(tmp_path, npy_file):
     assert proc.stderr.startswith("specbench estimate: Settings file") and "Traceback" not in proc.stderr
     assert proc.stdout == ""
 
+
+
+def test_clock_line_shows_the_engines_block_count(monkeypatch):
+    """The bar is the engine's own count of blocks done (reporting_progress), not a guess."""
+
+    class Tty(io.StringIO):
+        def isatty(self):
+            return True
+
+    stream = Tty()
+    progress = _batch._Progress(stream, quiet=False)
+    with progress.phase("estimating", long=True) as ph:
+        ph.blocks_done(1, 10)
+        ph.blocks_done(3, 10)
+        time.sleep(0.7)
+    assert "pass 1: [######..............] 3/10 blocks" in stream.getvalue()
