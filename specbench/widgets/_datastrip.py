@@ -17,7 +17,7 @@ import numpy as np
 
 from ._controls import ENTRY_WIDTH, ChoiceControl, FieldControl, _assign
 from ._reduce import overview
-from ._style import CURRENT, gapped
+from ._style import AXIS_LABEL, CURRENT, gapped
 from ._views import fmt, linear_ticks
 
 __all__ = ["DataStrip", "RateControl", "SpanControl"]
@@ -114,9 +114,9 @@ class DataStrip:
                               colors=["var(--jp-ui-font-color2)"], stroke_width=1.0, enable_hover=False)
         self.brush = bq.interacts.BrushIntervalSelector(scale=self.xs, marks=[], color=CURRENT)
         self.brush.observe(self._brushed, names=["brushing", "selected"])
-        self.ax_x = ax_x = bq.Axis(scale=self.xs, label="Time from record start (s)", label_offset="30px",
-                                   tick_format="~g")
-        self.ax_y = bq.Axis(scale=self.ys, side="left", num_ticks=3, label_offset="48px")
+        self.ax_x = ax_x = bq.Axis(scale=self.xs, label_color=AXIS_LABEL, label="Time from record start (s)",
+                                   label_offset="30px", tick_format="~g")
+        self.ax_y = bq.Axis(scale=self.ys, side="left", label_color=AXIS_LABEL, num_ticks=3, label_offset="48px")
         self.figure = bq.Figure(
             marks=[self.trace], axes=[ax_x, self.ax_y], interaction=self.brush,
             fig_margin=dict(top=6, bottom=40, left=72, right=18), padding_y=0.05, animation_duration=0,

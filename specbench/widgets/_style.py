@@ -9,10 +9,12 @@ from __future__ import annotations
 
 import ipywidgets as W
 
-__all__ = ["CURRENT", "PIN_STYLES", "style_sheet", "BAND_OPACITY"]
+__all__ = ["AXIS_LABEL", "BAND_OPACITY", "CURRENT", "PIN_STYLES", "gapped", "style_sheet"]
 
 #: the current estimate (line and band)
 CURRENT = "#3a78c2"
+#: axis labels in the theme's text colour (bqplot's dark styling would make them orange)
+AXIS_LABEL = "var(--jp-ui-font-color1)"
 #: opacity of a shaded confidence band
 BAND_OPACITY = 0.22
 

@@ -25,7 +25,7 @@ import ipywidgets as W
 import numpy as np
 
 from ._reduce import reduce_sorted
-from ._style import BAND_OPACITY, CURRENT, gapped
+from ._style import AXIS_LABEL, BAND_OPACITY, CURRENT, gapped
 
 __all__ = ["Trace", "SpectrumView", "CorrelationView", "spectrum_trace", "correlation_trace", "fmt"]
 
@@ -161,9 +161,9 @@ class _TraceView:
         self.line = bq.Lines(x=np.zeros(0), y=np.zeros(0), scales={"x": self.xs, "y": self.ys},
                              colors=[CURRENT], stroke_width=1.6, enable_hover=False)
         self.pin_lines: list[bq.Lines] = []
-        self.ax_x = bq.Axis(scale=self.xs, label=self.x_label, grid_lines="dashed", num_ticks=6,
+        self.ax_x = bq.Axis(scale=self.xs, label_color=AXIS_LABEL, label=self.x_label, grid_lines="dashed", num_ticks=6,
                             label_offset="32px")
-        self.ax_y = bq.Axis(scale=self.ys, side="left", label="", grid_lines="dashed",
+        self.ax_y = bq.Axis(scale=self.ys, side="left", label_color=AXIS_LABEL, label="", grid_lines="dashed",
                             label_offset="52px")
         self.figure = bq.Figure(
             marks=[self.band, self.line], axes=[self.ax_x, self.ax_y],

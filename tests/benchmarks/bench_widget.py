@@ -3,7 +3,10 @@
 Drives the controls of a Workbench programmatically, as a user's change arrives from the
 front end, with no event loop running (so every change computes before it returns), and
 times each change from setting the control's value to the marks holding the new
-estimate.  Every change asks for settings not seen before, so no cached result is reused.
+estimate.  The workbench's result cache is emptied before every change, so each change
+computes afresh (a confidence change still takes the band-only path: that is no cache).
+A detrend change recomputes both views (detrending is shared by the PSD and the
+autocorrelation); every other change here recomputes the PSD only.
 
 Targets (the issue): median under 50 ms at 1e6 samples and under 150 ms at 1e7 samples,
 Welch with segment length 4096.  Printed beside each median: the target, the ratio to it,
@@ -47,31 +50,34 @@ def changes(repeats: int):
     return out
 
 
-def bench(n: int, repeats: int) -> dict[str, float]:
+def bench(n: int, repeats: int) -> dict:
     sig = make_signal(n)
     bench = sb.Workbench(sig, sb.Welch(segment_length=4096))
     controls = bench.controls
-    per_control: dict[str, list[float]] = {}
-    bare: list[float] = []
+    rows = []  # (control, widget seconds, estimators-alone seconds)
     for name, value in changes(repeats):
+        bench._results.clear()  # measure computes, not cache hits
         t0 = time.perf_counter()
         controls[name].value = value
         dt = time.perf_counter() - t0
         est = bench.estimator
         assert bench.spectrum.estimator == est, f"{name}={value!r} not applied: {bench.status}"
-        assert getattr(est, name) == value or name == "window", (name, value, est)
-        per_control.setdefault(name, []).append(dt)
-        # the reference: the estimator alone on the same samples
+        # the reference: the estimators alone on the same samples
         t1 = time.perf_counter()
         est(bench.selected)
-        bare.append(time.perf_counter() - t1)
+        if name == "detrend":
+            bench.correlation_estimator(bench.selected)
+        rows.append((name, dt, time.perf_counter() - t1))
     points = bench.mark_points()
     assert max(points.values()) <= 5000, points
-    every = [t for ts in per_control.values() for t in ts]
-    out = {f"{k}": statistics.median(v) * 1e3 for k, v in per_control.items()}
-    out["all"] = statistics.median(every) * 1e3
-    out["estimator alone"] = statistics.median(bare) * 1e3
-    return out
+    ms = lambda xs: statistics.median(xs) * 1e3  # noqa: E731
+    return {
+        "all": ms([r[1] for r in rows]),
+        # (a confidence change recomputes only the band: it has no estimator call to compare with)
+        "overhead": ms([r[1] - r[2] for r in rows if r[0] != "confidence"]),
+        "per_control": {k: (ms([r[1] for r in rows if r[0] == k]), ms([r[2] for r in rows if r[0] == k]))
+                        for k in dict.fromkeys(r[0] for r in rows)},
+    }
 
 
 def main() -> None:
@@ -87,11 +93,12 @@ def main() -> None:
         ok &= med < target
         print(f"\n{n:>12,} samples: median {med:7.1f} ms  target < {target:.0f} ms  "
               f"ratio {med / target:.2f}  {'OK' if med < target else 'OVER TARGET'}")
-        print(f"{'':>14}estimator alone (same settings, same run): {r['estimator alone']:.1f} ms; "
-              f"widget adds {med - r['estimator alone']:.1f} ms")
-        for k, v in r.items():
-            if k not in ("all", "estimator alone"):
-                print(f"{'':>14}{k:<12} median {v:7.1f} ms")
+        print(f"{'':>14}widget time over the estimators alone (same settings, same run; not confidence): "
+              f"median {r['overhead']:.1f} ms")
+        for k, (v, bare) in r["per_control"].items():
+            flag = "" if v < target else (
+                "  (over: PSD and autocorrelation both recompute)" if k == "detrend" else "  (over)")
+            print(f"{'':>14}{k:<12} median {v:7.1f} ms   estimators alone {bare:7.1f} ms{flag}")
     print("\nall targets met" if ok else "\nSOME TARGETS MISSED")
 
 
