@@ -162,7 +162,11 @@ class FieldControl(W.VBox):
             self._show(change["new"])
 
     def set_value_quietly(self, value: Any) -> None:
-        """Show ``value`` without notifying observers (the workbench applies an estimator)."""
+        """Show ``value`` in the editors without them echoing it back as an edit.
+
+        Observers of ``value`` outside the control still run; the workbench guards its own
+        while it applies an estimator.
+        """
         with self._silence():
             self.value = value
             self._show(value)

@@ -172,12 +172,13 @@ class _TraceView:
             layout=W.Layout(width="100%", height=height, min_width="300px"),
         )
         self.figure.add_class(self.css)
-        self.readout = W.HTML("<span class='sb-muted'>Move over the plot to read values; click to hold.</span>")
+        self.readout = W.HTML("<span class='sb-muted'>Click the plot to read values; move to follow, "
+                              "click again to hold.</span>")
         self.readout.add_class("sb-readout")
         self.title = W.HTML(f"<span class='sb-view-title'>{title}</span>", layout=W.Layout(flex="1 1 auto"))
         self.tool = W.ToggleButtons(options=[("read", "read"), ("zoom", "zoom")], value="read",
                                     style={"button_width": "58px"}, tooltips=[
-                                        "Move over the plot for values; click to hold the cursor.",
+                                        "Click the plot for values; move to follow, click again to hold.",
                                         "Drag to pan, wheel to zoom; 'whole' resets."])
         self.reset = W.Button(description="whole", layout=W.Layout(width="66px"),
                               tooltip="Show the whole estimate again (undo zoom).")

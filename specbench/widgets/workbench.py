@@ -7,17 +7,20 @@ their fields; a :class:`~specbench.SettingsError` goes to the status line and ma
 control), then the estimate is computed off the latest estimator and the marks of both
 views, the figures of merit and the readouts are updated in one synchronised step.
 
-- Inside a running event loop (a kernel) the compute is deferred by a few milliseconds
-  and changes arriving meanwhile are coalesced: the latest settings win.  With no
-  running loop (a plain script, a test) every change computes before it returns; so
-  does setting :attr:`Workbench.estimator` from code, always.
+- A change from the front end (a widget event handled inside the kernel's event loop)
+  defers the compute by a few milliseconds, and changes arriving meanwhile are
+  coalesced: the latest settings win.  A change made by code (in a notebook cell, a plain
+  script, a test: no running loop) computes before it returns; so does setting
+  :attr:`Workbench.estimator`, always.
 - A setting that fails (a :class:`~specbench.SpecbenchError` while building or
   computing) leaves the last good estimate on screen, shows the message in the status
   line and marks the control.  Nothing raises into the front end; an unexpected error is
   logged (logger ``specbench.widgets``) and shown in one line.
 - :attr:`Workbench.estimator` is always the estimator of the estimate on screen
   (``bench.spectrum.estimator == bench.estimator``); the controls may hold a setting
-  that failed, and then :attr:`Workbench.status` says why.
+  that failed, and then :attr:`Workbench.status` says why.  When even the first
+  estimate fails (a record shorter than the default segment, say), the workbench opens
+  with the message and no estimate, and ``estimator`` is the one asked for.
 - Data-preparation fields (the estimators' ``group="data"`` fields that both estimators
   have: ``detrend``) are shared: the data strip's control sets them on both estimators.
   Every other field belongs to one estimator and has its own control.
@@ -57,6 +60,9 @@ from ._views import CorrelationView, SpectrumView, fmt
 __all__ = ["Workbench"]
 
 _log = logging.getLogger("specbench.widgets")
+# no handler of our own: tracebacks go where the user's logging config sends them, and never
+# into a cell's output through logging's last-resort handler
+_log.addHandler(logging.NullHandler())
 
 #: section titles of the control groups (the estimators' ParamSpec.group), in order
 GROUPS = (
@@ -129,6 +135,26 @@ def _guarded(fn):
     wrapper.__name__ = fn.__name__
     wrapper.__doc__ = fn.__doc__
     return wrapper
+
+
+def _executing_a_cell() -> bool:
+    """True while a kernel runs a cell: a control changed by code, not by a front-end event.
+
+    ipykernel records the request it is handling; a widget event from the browser is a
+    ``comm_msg``, code in a cell an ``execute_request``.
+    """
+    try:
+        from IPython import get_ipython
+    except ImportError:
+        return False
+    kernel = getattr(get_ipython(), "kernel", None)
+    if kernel is None or not hasattr(kernel, "get_parent"):
+        return False
+    try:
+        parent = kernel.get_parent("shell") or {}
+    except Exception:  # an older or unusual kernel: treat the change as an event
+        return False
+    return parent.get("header", {}).get("msg_type") == "execute_request"
 
 
 def _running_loop() -> asyncio.AbstractEventLoop | None:
@@ -219,8 +245,9 @@ class Workbench(W.VBox):
         self._shared = self._shared_names(type(est))
         corr = corr.replace(**{k: getattr(est, k) for k in self._shared})
         # committed state (what is on screen) and candidates (what the controls ask for)
-        self._est: SpectralEstimator | None = None
-        self._corr_est: Autocorrelation | None = None
+        # before the first estimate succeeds, the estimators asked for (nothing is on screen)
+        self._est: SpectralEstimator = est
+        self._corr_est: Autocorrelation = corr
         self._spectrum = self._correlation = None
         self._spectrum1 = self._correlation1 = None
         names = self._signal.channels
@@ -228,6 +255,8 @@ class Workbench(W.VBox):
         self._sel: _Selection | None = None
         self._next_sel = _Selection(ch, fs, None if span is None else tuple(float(s) for s in span))
         self._next_est, self._next_corr = est, corr
+        self._selected_cache: OrderedDict = OrderedDict()
+        self._select(self._next_sel)  # a span or rate given in code that cannot apply raises here
         self._changed: set[str] = set()
         self._errors: dict[str, str] = {}
         self._notes: list[str] = []
@@ -236,7 +265,6 @@ class Workbench(W.VBox):
         self._handle: asyncio.TimerHandle | None = None
         self._pins: list[Pin] = []
         self._results: OrderedDict = OrderedDict()
-        self._selected_cache: OrderedDict = OrderedDict()
         self._last_update = math.nan
         self._last_of: dict[type, SpectralEstimator] = {}
         self._carried: dict[str, Any] = {}  # fields carried over by a method switch -> own value
@@ -268,9 +296,13 @@ class Workbench(W.VBox):
             self._acf_ctrls[f"acf_{name}"] = c
         for key, c in (("channel", self._strip.channel), ("fs", self._strip.rate), ("span", self._strip.span)):
             c.observe(lambda ch, k=key: self._on_selection(k), names="value")
-        self._strip.channel.set_value_quietly(ch)
-        self._strip.rate.set_value_quietly(fs)
-        self._strip.span.set_value_quietly(self._next_sel.span)
+        self._applying += 1
+        try:
+            self._strip.channel.set_value_quietly(ch)
+            self._strip.rate.set_value_quietly(fs)
+            self._strip.span.set_value_quietly(self._next_sel.span)
+        finally:
+            self._applying -= 1
         self._controls_box = W.VBox(layout=W.Layout(width="340px", min_width="300px", flex="0 0 340px"))
         self._controls_box.add_class("sb-controls")
         self._use_class(self._cls)
@@ -535,7 +567,7 @@ class Workbench(W.VBox):
     # ------------------------------------------------------------------ compute
     def _request(self) -> None:
         loop = _running_loop()
-        if loop is None:
+        if loop is None or _executing_a_cell():
             self._run()
             return
         if self._handle is None:
@@ -673,7 +705,7 @@ class Workbench(W.VBox):
             self._carried = {}
         if need_acf:
             corr_res, acf_err = self._attempt(corr, sig, sel)
-        if sel_changed and (psd_err or acf_err):
+        if sel_changed and self._sel is not None and (psd_err or acf_err):
             # a new selection is taken whole or not at all: both views show the same data
             msg = psd_err or acf_err
             self._fail("data", "The new data selection was not applied: " + msg, sel_keys)
@@ -1021,7 +1053,7 @@ class Workbench(W.VBox):
         return freeze(self.freeze_state(), path=path, style=style)
 
     def __repr__(self) -> str:
-        sel = self._sel
+        sel = self._sel or self._next_sel
         return (f"<Workbench {self._est!r} · {self._corr_est!r} on channel {sel.channel!r}"
                 f"{'' if sel.span is None else f', span {sel.span}'}; {len(self._pins)} pin(s)>")
 

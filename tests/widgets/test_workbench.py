@@ -578,3 +578,31 @@ def test_demo_opens(bench):
     demo = sb.Workbench(sb.demo("test-stand"))
     assert demo.spectrum is not None and "Not applied" not in demo.status
     assert demo.controls["channel"].dropdown.options == ("drive_end", "free_end")
+
+
+def test_a_record_too_short_for_the_first_estimate_still_opens():
+    s = sb.Signal(np.random.default_rng(0).standard_normal(500), fs=100.0)
+    bench = sb.Workbench(s)  # the default segment (1024 samples) is longer than the record
+    assert bench.spectrum is None and bench.estimator == sb.Welch()
+    assert "segment_length of Welch is 1024 samples, but the data has only 500" in bench.status
+    assert bench.controls["segment_length"].invalid
+    assert bench.correlation is not None  # the autocorrelation needs no segment
+    with pytest.raises(sb.SpecbenchError, match="no estimate on screen"):
+        bench.pin()
+    bench.controls["segment_length"].value = 128
+    assert bench.spectrum.estimator == sb.Welch(segment_length=128)
+    check_consistent(bench)
+
+
+def test_constructor_arguments(sig):
+    bench = sb.Workbench(sig, channel="right", span=(2, 12), fs=500.0)
+    assert (bench.channel, bench.span, bench.fs_override) == ("right", (2.0, 12.0), 500.0)
+    assert bench.selected.n_samples == 5000 and bench.controls["span"].value == (2.0, 12.0)
+    with pytest.raises(sb.InputError, match="reaches outside the record"):
+        sb.Workbench(sig, span=(0.0, 999.0))
+    with pytest.raises(sb.InputError, match="No channel named 'middle'"):
+        sb.Workbench(sig, channel="middle")
+    with pytest.raises(sb.SettingsError, match="identifier"):
+        sb.Workbench(sig, data_name="my data")
+    with pytest.raises(sb.InputError, match="needs a Signal"):
+        sb.Workbench(np.zeros(100))
