@@ -90,7 +90,7 @@ class FieldControl(W.VBox):
         self.unit = unit
         self.message: str | None = None
         self._quiet = 0
-        self._label = W.HTML(label, layout=W.Layout(width=LABEL_WIDTH, min_width=LABEL_WIDTH))
+        self._label = W.HTML(label, layout=W.Layout(min_width=LABEL_WIDTH))
         self._label.add_class("sb-control-label")
         self._label.tooltip = help
         head = [self._label] if show_label else []

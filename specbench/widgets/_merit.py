@@ -28,6 +28,13 @@ class Merit:
     value: float | None = None
 
 
+def duration(seconds: float) -> str:
+    """``"12.3 ms"`` below a second, ``"1.81 s"`` above."""
+    if seconds is None or not np.isfinite(seconds):
+        return "—"
+    return f"{fmt(seconds * 1e3, 3)} ms" if seconds < 1 else f"{fmt(seconds, 3)} s"
+
+
 def _dof_text(spec) -> tuple[str, float]:
     dof = np.broadcast_to(spec.dof, spec.value.shape)
     inner = dof[..., 1:-1] if dof.shape[-1] > 2 else dof
@@ -81,12 +88,13 @@ def spectrum_merits(spec, corr=None, update_seconds: float | None = None) -> lis
         "Samples that entered the estimate.", float(used)))
     out.append(Merit("seconds", "Seconds used", f"{fmt(used / spec.fs)} s", "Duration of the samples used.",
                      used / spec.fs))
-    t = info.get("compute_seconds", float("nan")) * 1e3
-    timing = f"PSD {fmt(t, 3)} ms"
+    t = info.get("compute_seconds", float("nan"))
+    timing = f"PSD {duration(t)}"
     if corr is not None:
-        timing += f" · ACF {fmt(corr.info.get('compute_seconds', float('nan')) * 1e3, 3)} ms"
+        timing += f" · ACF {duration(corr.info.get('compute_seconds', float('nan')))}"
     if update_seconds is not None:
-        timing += f" · update {fmt(update_seconds * 1e3, 3)} ms"
+        timing += f" · update {duration(update_seconds)}"
+    t *= 1e3
     out.append(Merit("compute", "Compute time", timing, "Estimation time, and the whole update (Python side).", t))
     return out
 

@@ -99,13 +99,16 @@ def reduce_sorted(
         Columns equally spaced in ``log10(x)``; points with ``x <= 0`` are left out
         (a logarithmic axis cannot show them).
     lo, hi : float, optional
-        Only the x range ``[lo, hi]`` (a zoomed view); default the whole trace.
+        Only the x range ``[lo, hi]`` (a zoomed view); default the whole trace.  Ignored
+        for traces of at most ``budget`` points, which are returned whole.
     columns : int
         Number of columns across the range.
     budget : int
         Traces with at most this many points in range are returned whole.
     """
     x = np.asarray(x)
+    if x.size <= budget:  # small enough to send whole: panning then needs no redraw
+        lo = hi = None
     i0, i1 = _edges_index(x, lo, hi)
     if log:
         first_pos = int(np.searchsorted(x, 0.0, side="right"))

@@ -40,7 +40,8 @@ _CSS = """
   font-size: var(--jp-ui-font-size0, 11px); text-transform: uppercase; letter-spacing: .06em;
   color: var(--jp-ui-font-color2); margin: 8px 0 2px 0; border-bottom: 1px solid var(--jp-border-color2);
 }
-.sb-workbench .sb-control-label { color: var(--jp-ui-font-color1); text-align: left; }
+.sb-workbench .sb-control-label { color: var(--jp-ui-font-color1); text-align: left; white-space: nowrap;
+  margin-right: 6px; }
 .sb-workbench .sb-control-label .widget-html-content { text-align: left; }
 .sb-workbench .sb-invalid input, .sb-workbench .sb-invalid select {
   border-color: var(--jp-error-color1) !important;

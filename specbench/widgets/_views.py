@@ -161,10 +161,7 @@ class _TraceView:
         self.line = bq.Lines(x=np.zeros(0), y=np.zeros(0), scales={"x": self.xs, "y": self.ys},
                              colors=[CURRENT], stroke_width=1.6, enable_hover=False)
         self.pin_lines: list[bq.Lines] = []
-        self.ax_x = bq.Axis(scale=self.xs, label_color=AXIS_LABEL, label=self.x_label, grid_lines="dashed", num_ticks=6,
-                            label_offset="32px")
-        self.ax_y = bq.Axis(scale=self.ys, side="left", label_color=AXIS_LABEL, label="", grid_lines="dashed",
-                            label_offset="52px")
+        self.ax_x, self.ax_y = self._make_axes()
         self.figure = bq.Figure(
             marks=[self.band, self.line], axes=[self.ax_x, self.ax_y],
             fig_margin=dict(top=12, bottom=46, left=72, right=18), padding_y=0.0,
@@ -192,6 +189,13 @@ class _TraceView:
         self._set_tool()
 
     # -- scales and tools ------------------------------------------------------------
+    def _make_axes(self, y_label: str = "") -> tuple[bq.Axis, bq.Axis]:
+        ax_x = bq.Axis(scale=self.xs, label_color=AXIS_LABEL, label=self.x_label, grid_lines="dashed",
+                       label_offset="32px")
+        ax_y = bq.Axis(scale=self.ys, side="left", label_color=AXIS_LABEL, label=y_label, grid_lines="dashed",
+                       label_offset="52px")
+        return ax_x, ax_y
+
     def _make_scales(self):
         return bq.LinearScale(), bq.LinearScale()
 
@@ -230,7 +234,10 @@ class _TraceView:
         self.xs, self.ys = xs, ys
         for m in self.figure.marks:
             m.scales = {"x": xs, "y": ys}
-        self.ax_x.scale, self.ax_y.scale = xs, ys
+        # new axes rather than a new scale on the old ones: bqplot's front end does not redraw
+        # the ticks of an axis whose scale object is replaced
+        self.ax_x, self.ax_y = self._make_axes(self.ax_y.label)
+        self.figure.axes = [self.ax_x, self.ax_y]
         self._watch_scales()
         self._set_tool()
 

@@ -52,10 +52,10 @@ from ..estimators._dof import band_factors
 from ..freeze._state import FreezeState, Selection
 from ._controls import ChoiceControl, Context, FieldControl, OptionalControl, control_for
 from ._datastrip import DataStrip
-from ._merit import MeritPanel, spectrum_merits
+from ._merit import MeritPanel, duration, spectrum_merits
 from ._pins import MAX_PINS, PIN_STYLES, Pin, PinBoard, auto_labels, settings_of
 from ._style import gapped, style_sheet
-from ._views import CorrelationView, SpectrumView, fmt
+from ._views import CorrelationView, SpectrumView
 
 __all__ = ["Workbench"]
 
@@ -98,13 +98,19 @@ def carry_over(old: SpectralEstimator, cls: type, base: SpectralEstimator | None
     """A ``cls`` estimator that keeps the choices made in ``old``.
 
     Starts from ``base`` (the last ``cls`` estimator used, or ``cls()``) and takes every
-    field of ``old`` that was changed from ``old``'s default and that ``cls`` has and
-    accepts (one by one, so one field ``cls`` refuses does not lose the others).  The
-    defaults of one method do not leak into another: Welch's Hann window does not
-    replace the periodogram's rectangular one unless it was chosen.
+    field of ``old`` that was changed from ``old``'s default, or that is concrete where
+    ``cls`` would be automatic (None), and that ``cls`` has and accepts (one by one, so one
+    field ``cls`` refuses does not lose the others).  Other defaults of one method do not
+    leak into another: Welch's Hann window does not replace the periodogram's rectangular
+    one unless it was chosen.
     """
     start = base if isinstance(base, cls) else cls()
     wanted = {k: v for k, v in old.changed_fields().items() if k in cls.params()}
+    # a concrete value also replaces an automatic (None) default of the new method: Welch's
+    # segment length carries into multitaper, whose default tapers the whole record
+    wanted.update({k: getattr(old, k) for k, p in cls.params().items()
+                   if k in old.params() and k not in wanted and p.default is None
+                   and getattr(start, k) is None and getattr(old, k) is not None})
     try:
         return start.replace(**wanted)
     except SettingsError:
@@ -504,8 +510,8 @@ class Workbench(W.VBox):
         self._last_of[type(current)] = current
         base = self._last_of.get(cls) or cls()
         est = carry_over(current, cls, base)
-        self._carried = {k: getattr(base, k) for k, v in current.changed_fields().items()
-                         if k in cls.params() and getattr(est, k) == v and getattr(base, k) != v}
+        self._carried = {k: getattr(base, k) for k in cls.params()
+                         if k in current.params() and getattr(est, k) == getattr(current, k) != getattr(base, k)}
         self._changed.add("method")
         self._apply_to_controls(est, self._next_corr or self._corr_est)
         self._errors.pop("build-psd", None)
@@ -811,7 +817,7 @@ class Workbench(W.VBox):
             self._status.value = ""
             return
         sig_n = self._spectrum.samples_used
-        text = (f"{self._est!r} on {sig_n:,} samples · update {fmt(self._last_update * 1e3, 3)} ms")
+        text = f"{self._est!r} on {sig_n:,} samples · update {duration(self._last_update)}"
         if self._notes:
             self._status_text = "Note: " + " | ".join(self._notes) + " — " + text
             self._status.value = ("<span class='sb-note'>Note:</span> " + html.escape(" | ".join(self._notes))

@@ -75,6 +75,10 @@ class TestReduceSorted:
         assert xs[0] < 100.0 <= xs[1] and xs[-2] <= 200.0 < xs[-1]
         assert red.size <= 2 * COLUMNS + 2
 
+    def test_a_short_trace_ignores_the_visible_range(self):
+        x = np.linspace(0, 10, 500)
+        np.testing.assert_array_equal(reduce_sorted(x, x, lo=2.0, hi=3.0).index, np.arange(500))
+
     def test_nan_columns_are_dropped(self):
         x = np.arange(100_000, dtype=float)
         y = np.ones_like(x)

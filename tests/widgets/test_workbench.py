@@ -148,6 +148,14 @@ class TestMethodSwitch:
         assert bench.estimator == sb.Welch(segment_length=4096)
         check_consistent(bench)
 
+    def test_a_concrete_value_replaces_an_automatic_default(self, bench):
+        bench.controls["method"].value = "Multitaper"
+        # Welch's (default) 1024 rather than tapers over the whole record
+        assert bench.estimator == sb.Multitaper(segment_length=1024)
+        bench.controls["segment_length"].value = None
+        bench.controls["method"].value = "Welch"
+        assert bench.estimator == sb.Welch()  # None is no concrete value for Welch
+
     def test_segment_length_carries_into_multitaper(self, bench):
         bench.controls["segment_length"].value = 2048
         bench.controls["method"].value = "Multitaper"
