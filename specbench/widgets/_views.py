@@ -447,6 +447,8 @@ class SpectrumView(_TraceView):
         self.zoomed = False
         self._set_scales(xs, ys)
         self.redraw()
+        if self._read_x is not None and self.result is not None:
+            self.readout.value = self._readout_text(self._read_x)
 
     def _y_label(self, tr: Trace) -> str:
         name = {"density": "PSD", "asd": "ASD", "db": "PSD", "power": "Power"}[self.kind]

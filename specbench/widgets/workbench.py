@@ -250,14 +250,14 @@ class Workbench(W.VBox):
         corr = Autocorrelation() if correlation_estimator is None else self._check_corr(correlation_estimator)
         self._shared = self._shared_names(type(est))
         corr = corr.replace(**{k: getattr(est, k) for k in self._shared})
-        # committed state (what is on screen) and candidates (what the controls ask for)
-        # before the first estimate succeeds, the estimators asked for (nothing is on screen)
+        # committed state (what is on screen; until a first estimate succeeds, the estimators
+        # asked for) and candidates (_next_*: what the controls ask for)
         self._est: SpectralEstimator = est
         self._corr_est: Autocorrelation = corr
         self._spectrum = self._correlation = None
         self._spectrum1 = self._correlation1 = None
         names = self._signal.channels
-        ch = names[0] if channel is None else self._signal.channels[self._signal._channel_index(channel)]
+        ch = names[0] if channel is None else self._signal.channel(channel).channels[0]
         self._sel: _Selection | None = None
         self._next_sel = _Selection(ch, fs, None if span is None else tuple(float(s) for s in span))
         self._next_est, self._next_corr = est, corr
@@ -334,6 +334,8 @@ class Workbench(W.VBox):
     # ------------------------------------------------------------------ construction helpers
     @staticmethod
     def _check_spectral(est: Any) -> SpectralEstimator:
+        if isinstance(est, type):
+            raise SettingsError(f"Pass an estimator object, such as sb.{est.__name__}(); got the class itself.")
         if not isinstance(est, SpectralEstimator):
             raise SettingsError(
                 f"The estimator of a Workbench must be a PSD estimator such as sb.Welch(...); got "

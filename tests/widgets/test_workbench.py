@@ -418,6 +418,8 @@ class TestViews:
         assert "lag 0.01 s" in acf and "(10 samples)" in acf
         bench.controls["window"].value = "hamming"  # the readout follows a new estimate
         assert bench._psd.readout.value != text
+        bench.controls["plot_as"].value = "db"  # and the display unit
+        assert "dB re 1 V^2/Hz" in bench._psd.readout.value
 
     def test_zoom_reduces_the_visible_range_again(self, big_sig):
         bench = sb.Workbench(big_sig, sb.Periodogram())
