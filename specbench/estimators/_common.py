@@ -108,10 +108,9 @@ def nonfinite_error(x: np.ndarray, owner: str, limit: int | None = None) -> Inpu
             order = np.argsort(idx, kind="stable")[: 5 - len(bad_pos)]
             bad_pos.extend((int(c), int(i) + t0) for c, i in zip(ch[order], idx[order]))
     where = ", ".join(f"sample {i}" + (f" of channel {c}" if x.shape[0] > 1 else "") for c, i in bad_pos)
-    fix = (
-        "Choose a span without them, fill or interpolate them yourself, or use "
-        "sb.Welch(gaps='skip') to leave out the segments that touch them."
-    )
+    fix = "Choose a span without them, or fill or interpolate them yourself"
+    fix += (", or use sb.Welch(gaps='skip') to leave out the segments that touch them." if owner == "Welch"
+            else "; sb.Welch(gaps='skip') can estimate the PSD around them.")
     return InputError(
         f"The data has {count} non-finite sample{'s' if count != 1 else ''} (NaN or inf), "
         f"first at {where}. {owner} cannot estimate through them. {fix}"

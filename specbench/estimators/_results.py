@@ -110,6 +110,19 @@ class Spectrum:
         r = self.resolution
         return v * r, lo * r, hi * r, _per_channel(self.data_unit, power_unit)
 
+    def with_confidence(self, confidence: float) -> Spectrum:
+        """The same estimate with its band at another confidence level.
+
+        Equal, bit for bit, to estimating again with ``estimator.replace(confidence=...)``:
+        the band depends on the estimate only through its degrees of freedom.
+        """
+        from ._dof import band_factors
+
+        est = self.estimator.replace(confidence=confidence)  # validates the level
+        lo, hi = band_factors(self.dof, est.confidence)
+        return replace(self, lower=self.value * lo, upper=self.value * hi, confidence=est.confidence,
+                       estimator=est, info=dict(self.info))
+
     def band_db(self) -> float:
         """Width of the confidence band in dB, ``10 log10(upper / lower)``, at interior bins."""
         dof = np.broadcast_to(self.dof, self.value.shape)

@@ -368,6 +368,11 @@ class Periodogram(SpectralEstimator):
 # ---------------------------------------------------------------- Multitaper
 
 
+#: whole-record tapers longer than this get a cost warning (PERFORMANCE.md: 1.4 s at 1e6)
+WHOLE_RECORD_TAPER_LIMIT = 1 << 20
+_TAPER_KEYS: set = set()
+
+
 @functools.lru_cache(maxsize=8)
 def _tapers(n: int, nw: float, k: int) -> tuple[np.ndarray, np.ndarray]:
     """Unit-energy DPSS tapers (k, n) and their concentration ratios, cached."""
@@ -489,7 +494,17 @@ class Multitaper(SpectralEstimator):
                 f"Leave nfft=None or choose nfft >= {seg}."
             )
         k = self.n_tapers
-        h, lam = _tapers(seg, float(self.bandwidth), k)
+        key = (seg, float(self.bandwidth), k)
+        if self.segment_length is None and seg > WHOLE_RECORD_TAPER_LIMIT and key not in _TAPER_KEYS:
+            warnings.warn(
+                f"Multitaper tapers the whole record of {seg:,} samples: building {k} DPSS tapers of that "
+                f"length takes about {1.4 * k / 7 * seg / 1e6:.0f} s and {k * seg * 8 / 2**20:,.0f} MB "
+                "(once; they are cached). Pass segment_length= (e.g. 65536) to taper segments and average them.",
+                SpecbenchWarning,
+                stacklevel=3,
+            )
+        h, lam = _tapers(*key)
+        _TAPER_KEYS.add(key)
         nseg = n // seg
         used = nseg * seg
         sk = []

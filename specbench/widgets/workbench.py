@@ -33,7 +33,6 @@ from __future__ import annotations
 
 import asyncio
 import contextlib
-import dataclasses
 import logging
 import math
 import re
@@ -48,7 +47,6 @@ import ipywidgets as W
 
 from .._errors import InputError, SettingsError, SpecbenchError, SpecbenchWarning
 from ..estimators import Autocorrelation, SpectralEstimator, Welch, estimator_classes
-from ..estimators._dof import band_factors
 from ..freeze._state import FreezeState, Selection
 from ._controls import ChoiceControl, Context, FieldControl, OptionalControl, control_for
 from ._datastrip import DataStrip
@@ -646,11 +644,9 @@ class Workbench(W.VBox):
                 or est != self._est.replace(confidence=est.confidence)):
             return None
         t0 = time.perf_counter()
-        lo, hi = band_factors(spec.dof, est.confidence)
-        info = dict(spec.info)
-        info["compute_seconds"] = time.perf_counter() - t0
-        return dataclasses.replace(spec, lower=spec.value * lo, upper=spec.value * hi,
-                                   confidence=est.confidence, estimator=est, info=info)
+        spec = spec.with_confidence(est.confidence)
+        spec.info["compute_seconds"] = time.perf_counter() - t0
+        return spec
 
     def _attempt(self, est, sig, sel):
         """``(result, None)`` or ``(None, message)``; unexpected errors are logged."""

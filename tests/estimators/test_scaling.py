@@ -76,3 +76,21 @@ def test_units_follow_the_signal():
     assert spec.channels == ("ax",)
     sig_v = type("S", (), dict(data=WHITE[None, :], fs=FS, channels=("v",), unit="V"))()
     assert sb.Welch()(sig_v).unit == "V^2/Hz"
+
+
+def test_with_confidence_equals_a_fresh_estimate():
+    est = sb.Welch(segment_length=512)
+    spec = est(WHITE, fs=FS)
+    again = spec.with_confidence(0.8)
+    fresh = est.replace(confidence=0.8)(WHITE, fs=FS)
+    assert np.array_equal(again.lower, fresh.lower) and np.array_equal(again.upper, fresh.upper)
+    assert again.estimator == fresh.estimator and spec.confidence == 0.95
+    with pytest.raises(sb.SettingsError, match="'confidence' parameter of Welch"):
+        spec.with_confidence(1.5)
+
+
+def test_whole_record_multitaper_warns_of_its_cost():
+    x = np.zeros(1 << 21)
+    x[::7] = 1.0
+    with pytest.warns(sb.SpecbenchWarning, match=r"tapers the whole record of 2,097,152 samples.*segment_length="):
+        sb.Multitaper(bandwidth=1.0)(x, fs=1.0)
