@@ -153,14 +153,15 @@ QUICKSTART = [
     import bqplot as bq
 
     spec = bench.spectrum
-    f, true = spec.freq[1:], sig.truth.psd(spec.freq)[0, 1:]  # 0 Hz left out of a log axis
+    inner = slice(1, -1)  # 0 Hz (off a log axis) and Nyquist (half the dof) left out
+    f, true = spec.freq[inner], sig.truth.psd(spec.freq)[0, inner]
     xs, ys = bq.LogScale(), bq.LogScale()
-    band = bq.Lines(x=f, y=[spec.upper[0, 1:], spec.lower[0, 1:]], fill="between",
+    band = bq.Lines(x=f, y=[spec.upper[0, inner], spec.lower[0, inner]], fill="between",
                     colors=["#3a78c2"], fill_colors=["#3a78c2"], fill_opacities=[0.35],
                     opacities=[0, 0], scales={"x": xs, "y": ys})
     truth = bq.Lines(x=f, y=true, colors=["#c0392b"], stroke_width=1.2, scales={"x": xs, "y": ys})
     bq.Figure(marks=[band, truth], title=f"{spec.estimator!r}: 95 % band (blue), true PSD (red)",
-              axes=[bq.Axis(scale=xs, label="Frequency (Hz)"),
+              axes=[bq.Axis(scale=xs, label="Frequency (Hz)", tick_format="~g"),
                     bq.Axis(scale=ys, orientation="vertical", label=spec.unit, label_offset="50px")],
               fig_margin={"top": 40, "bottom": 50, "left": 80, "right": 20})
     """),
@@ -174,7 +175,7 @@ QUICKSTART = [
     the workbench shows the same code, with a Copy button.
     """),
     code("""
-    bench.freeze()
+    frozen = bench.freeze()  # in JupyterLab: the new cell below
     """),
     md("""
     Outside JupyterLab (a console, a script), take the code as text; `style="scipy"` gives
@@ -183,10 +184,13 @@ QUICKSTART = [
     code("""
     print(bench.code())
     """),
+    md("""
+    Running the frozen code reproduces the estimate on screen, bit for bit:
+    """),
     code("""
-    frozen = {}
-    exec(bench.code(), frozen)  # what running the inserted cell does
-    np.array_equal(frozen["spectrum"].value, bench.spectrum.value)
+    namespace = {}
+    exec(frozen, namespace)  # what running the inserted cell does
+    np.array_equal(namespace["spectrum"].value, bench.spectrum.value)
     """),
 ]
 

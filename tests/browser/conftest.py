@@ -372,21 +372,60 @@ class LabPage:
         if dialog.count():
             raise AssertionError(f"JupyterLab shows a dialog: {dialog.first.inner_text()!r}")
 
-    def run_all(self, timeout: float = KERNEL_TIMEOUT) -> None:
-        """Run all cells from the Run menu and wait until every code cell has executed."""
+    def run_all(self, timeout: float = KERNEL_TIMEOUT) -> int:
+        """Run all cells from the Run menu; wait until the code cells that were there have run.
+
+        Only the code cells present when Run All is issued are waited for: a cell inserted
+        while the notebook runs (``bench.freeze()`` puts its code in a new cell below, not
+        executed) is not. A cell is done when its prompt shows an execution count other
+        than the one it showed before, so a second Run All waits for the new run. When a
+        cell raises, JupyterLab stops running the others; that fails at once with the
+        traceback rather than at the timeout. Returns the number of cells run.
+        """
         with self.timed("run all"):
+            count = self.page.evaluate(
+                """() => {
+                    const cells = [...document.querySelectorAll('.jp-Notebook .jp-CodeCell')];
+                    for (const cell of cells) {
+                        const prompt = cell.querySelector('.jp-InputArea-prompt');
+                        cell.dataset.sbRunAll = prompt ? prompt.textContent : '';
+                    }
+                    return cells.length;
+                }"""
+            )
+            if not count:
+                raise AssertionError("the notebook has no code cell to run")
             self.page.locator(".lm-MenuBar-item", has_text=re.compile(r"^Run$")).click()
             self.page.locator('li[data-command="runmenu:run-all"]').click()
-            self.page.wait_for_function(
+            outcome = self.page.wait_for_function(
                 """() => {
-                    const prompts = [...document.querySelectorAll(
-                        '.jp-Notebook .jp-CodeCell .jp-InputArea-prompt')];
-                    return prompts.length > 0 &&
-                        prompts.every(p => /\\[\\d+\\]/.test(p.textContent));
+                    const cells = [...document.querySelectorAll(
+                        '.jp-Notebook .jp-CodeCell[data-sb-run-all]')];
+                    let done = true;
+                    for (const cell of cells) {
+                        const prompt = cell.querySelector('.jp-InputArea-prompt');
+                        const text = prompt ? prompt.textContent : '';
+                        const ran = /\\[\\d+\\]/.test(text) && text !== cell.dataset.sbRunAll;
+                        if (ran) {
+                            const error = [...cell.querySelectorAll(
+                                '.jp-OutputArea-output[data-mime-type="application/vnd.jupyter.stderr"]')]
+                                .map(o => o.innerText).find(t => t.includes('Traceback'));
+                            if (error) return {error: error};
+                        }
+                        done = done && ran;
+                    }
+                    return done ? {error: null} : false;
                 }""",
                 timeout=timeout,
+            ).json_value()
+            self.page.evaluate(
+                """() => document.querySelectorAll('.jp-CodeCell[data-sb-run-all]')
+                    .forEach(cell => delete cell.dataset.sbRunAll)"""
             )
+            if outcome["error"]:
+                raise AssertionError(f"a cell raised during Run All:\n{outcome['error']}")
             self.wait_idle(timeout)
+        return count
 
     def stderr_outputs(self) -> list[str]:
         """Texts of every stderr output in the notebook: warnings and tracebacks.
@@ -412,9 +451,14 @@ class LabPage:
 
         JupyterLab scrolls inside the notebook panel, so a full-page capture does not reach
         below the fold: pass `show` (a selector) to scroll that element into view first.
+        Cells scrolled into view are painted on a later frame (JupyterLab skips rendering
+        off-screen cells), so the capture waits for two animation frames after scrolling.
         """
         if show is not None:
             self.page.locator(show).first.scroll_into_view_if_needed()
+            self.page.evaluate(
+                "() => new Promise(done => requestAnimationFrame(() => requestAnimationFrame(done)))"
+            )
         SCREENSHOTS.mkdir(exist_ok=True)
         stem = re.sub(r"[^A-Za-z0-9_.-]+", "_", self.name + (f"-{label}" if label else ""))
         path = SCREENSHOTS / f"{stem}.png"

@@ -1,0 +1,454 @@
+"""The Workbench end to end: a real JupyterLab, the real widget, headless Chromium.
+
+Each test opens a notebook of its own (its own kernel) on the shared server and checks
+what a person sees: the SVG paths bqplot draws for the estimate, its band and the pins,
+the text of the figures of merit and of the status line, the cell ``bench.freeze()``
+inserts and what the copy button puts on the clipboard. Every step saves a screenshot to
+tests/browser/screenshots/ (git-ignored).
+
+Expected figures of merit come from outside the project: the Hann window's equivalent
+noise bandwidth is 1.50 bins (Harris, "On the use of windows for harmonic analysis with
+the discrete Fourier transform", Proc. IEEE 66(1), 1978, Table 1), so the resolution is
+1.5 fs / segment length; a record of N samples holds floor((N - L) / S) + 1 segments of
+length L at step S (Welch, IEEE Trans. Audio Electroacoust. 15(2), 1967).
+"""
+
+from __future__ import annotations
+
+import re
+from dataclasses import dataclass
+from pathlib import Path
+
+import nbformat
+
+EXAMPLES = Path(__file__).resolve().parents[2] / "specbench" / "examples"
+
+FS = 5120.0  # the test-stand demo's rate
+SAMPLES = 20 * 5120  # sb.demo("test-stand", duration=20)
+
+BENCH_CELL = """\
+import specbench as sb
+
+bench = sb.Workbench(sb.demo("test-stand", duration=20))
+bench"""
+
+#: the header line of a frozen cell that holds the time of freezing (to the second)
+FROZEN_AT = re.compile(r"(# specbench \S+, frozen )\S+\.$", re.MULTILINE)
+
+
+def notebook(*sources: str) -> nbformat.NotebookNode:
+    return nbformat.v4.new_notebook(cells=[nbformat.v4.new_code_cell(s) for s in sources])
+
+
+def resolution_hz(segment_length: int) -> str:
+    """Resolution of a Hann-window Welch estimate as the merit panel writes it (ENBW 1.5 bins)."""
+    return f"{1.5 * FS / segment_length:.4g} Hz"
+
+
+def segments(segment_length: int, overlap: float = 0.5) -> str:
+    step = int(segment_length * (1 - overlap))
+    return f"{(SAMPLES - segment_length) // step + 1:,}"
+
+
+def without_time(code: str) -> str:
+    """The frozen code with the time of freezing blanked out (two freezes differ only there)."""
+    stamped = FROZEN_AT.subn(r"\1<time>.", code)
+    assert stamped[1] == 1, f"no 'frozen <time>' header line in:\n{code}"
+    return stamped[0]
+
+
+# ------------------------------------------------------------------------ what is drawn
+
+_MARKS_JS = """(figure) => {
+    const box = (el) => {
+        if (!el) return [0, 0];
+        const r = el.getBoundingClientRect();
+        return [r.width, r.height];
+    };
+    const marks = new Map();
+    for (const curve of figure.querySelectorAll('g.curve')) {
+        const key = curve.parentElement;
+        if (!marks.has(key)) marks.set(key, []);
+        const line = curve.querySelector('path.line');
+        const area = curve.querySelector('path.area');
+        const ls = line ? getComputedStyle(line) : null;
+        const as = area ? getComputedStyle(area) : null;
+        marks.get(key).push({
+            line: line ? line.getAttribute('d') || '' : '',
+            area: area ? area.getAttribute('d') || '' : '',
+            line_box: box(line),
+            area_box: box(area),
+            line_opacity: ls ? parseFloat(ls.opacity) : 0,
+            line_width: ls ? parseFloat(ls.strokeWidth) : 0,
+            area_opacity: as && as.fill !== 'none' ? parseFloat(as.opacity) * parseFloat(as.fillOpacity) : 0,
+            area_fill: as ? as.fill : 'none',
+            dash: ls ? ls.strokeDasharray : 'none',
+            stroke: ls ? ls.stroke : '',
+        });
+    }
+    return [...marks.values()];
+}"""
+
+
+@dataclass
+class Drawn:
+    """One view as drawn: the band's filled area, the estimate's line, the pins' lines."""
+
+    band: dict  # the curve holding the filled area
+    line: dict  # the solid line of the estimate on screen
+    pins: list[dict]  # dashed or dotted lines, one per pin
+
+    @property
+    def key(self) -> tuple[str, str]:
+        return self.band["area"], self.line["line"]
+
+
+def curves_of(figure) -> list[dict]:
+    """Every curve of the bqplot figure at locator ``figure``, measured where it is seen."""
+    figure.scroll_into_view_if_needed()
+    return [curve for mark in figure.evaluate(_MARKS_JS) for curve in mark]
+
+
+def drawn(lab, view: str) -> Drawn:
+    """Classify the marks of ``.sb-<view>`` by how they look, not by their order in the SVG."""
+    curves = curves_of(lab.page.locator(f".sb-{view}").first)
+    assert curves, f"no bqplot marks in .sb-{view}"
+    # a band is a translucent shade (bqplot also writes an opaque, zero-area path per curve)
+    bands = [c for c in curves if c["area"] and 0 < c["area_opacity"] < 1]
+    lines = [c for c in curves if c["line"] and c["line_opacity"] > 0 and c["line_width"] > 0]
+    solid = [c for c in lines if c["dash"] in ("none", "")]
+    pins = [c for c in lines if c["dash"] not in ("none", "")]
+    assert len(bands) == 1, f".sb-{view}: {len(bands)} shaded bands, expected 1"
+    assert len(solid) == 1, f".sb-{view}: {len(solid)} solid lines, expected 1 (the estimate)"
+    assert bands[0]["area_fill"] == solid[0]["stroke"], "the band is not shaded in the estimate's colour"
+    return Drawn(bands[0], solid[0], pins)
+
+
+def assert_visible(curve: dict, part: str, what: str) -> None:
+    width, height = curve[f"{part}_box"]
+    assert len(curve[part]) > 200, f"{what}: the path is (almost) empty"
+    assert width > 250 and height > 20, f"{what}: drawn {width:.0f} x {height:.0f} px"
+
+
+def wait_redrawn(lab, view: str, before: Drawn) -> None:
+    """Wait until the estimate's line of ``view`` differs from ``before``'s."""
+    lab.page.wait_for_function(
+        """([selector, old]) => [...document.querySelectorAll(selector + ' path.line')]
+            .some(p => getComputedStyle(p).strokeDasharray === 'none' &&
+                       getComputedStyle(p).opacity !== '0' && (p.getAttribute('d') || '') !== old &&
+                       (p.getAttribute('d') || '').length > 200)""",
+        arg=[f".sb-{view}", before.line["line"]],
+    )
+
+
+def merit(lab, key: str) -> str:
+    return lab.page.locator(f".sb-merit-{key} .sb-merit-value").text_content().strip()
+
+
+def status(lab) -> str:
+    return lab.page.locator(".sb-status").text_content().strip()
+
+
+def segment_entry(lab):
+    return lab.page.locator(".sb-control-segment-length input[type=number]")
+
+
+def type_segment_length(lab, value: int) -> None:
+    """Type a segment length in the entry box and press Enter, as a person would."""
+    entry = segment_entry(lab)
+    entry.click()
+    entry.fill(str(value))
+    entry.press("Enter")
+
+
+_CONTRAST_JS = """(selector) => {
+    // WCAG 2.1 relative luminance and contrast ratio (W3C, Web Content Accessibility
+    // Guidelines 2.1, 2018, definitions "relative luminance" and "contrast ratio").
+    const rgb = (text) => (text.match(/[\\d.]+/g) || []).map(Number);
+    const luminance = ([r, g, b]) => {
+        const c = [r, g, b].map(v => v / 255).map(v => v <= 0.03928 ? v / 12.92 : ((v + 0.055) / 1.055) ** 2.4);
+        return 0.2126 * c[0] + 0.7152 * c[1] + 0.0722 * c[2];
+    };
+    const figure = document.querySelector(selector);
+    let el = figure, background = null;
+    while (el && !background) {
+        const c = rgb(getComputedStyle(el).backgroundColor);
+        if (c.length === 3 || (c.length === 4 && c[3] > 0)) background = c.slice(0, 3);
+        el = el.parentElement;
+    }
+    background = background || [255, 255, 255];
+    const texts = [...figure.querySelectorAll('.axis text')].filter(t => t.textContent.trim());
+    return texts.map(t => {
+        const fill = rgb(getComputedStyle(t).fill).slice(0, 3);
+        if (fill.length < 3) return [t.textContent.trim(), 0];  // no plain colour: not readable
+        const [a, b] = [luminance(fill), luminance(background)];
+        return [t.textContent.trim(), (Math.max(a, b) + 0.05) / (Math.min(a, b) + 0.05)];
+    });
+}"""
+
+
+def assert_axis_text_readable(lab, view: str) -> None:
+    """Tick and axis labels have at least WCAG 2.1's 4.5:1 contrast against the page (SC 1.4.3)."""
+    texts = lab.page.evaluate(_CONTRAST_JS, f".sb-{view}")
+    assert len(texts) >= 6, f".sb-{view}: only {len(texts)} axis labels"
+    poor = [(text, round(ratio, 2)) for text, ratio in texts if ratio < 4.5]
+    assert not poor, f".sb-{view}: axis text with too little contrast: {poor}"
+
+
+def use_theme(lab, name: str) -> None:
+    """Switch JupyterLab's theme from the Settings menu, as a person would."""
+    lab.page.locator(".lm-MenuBar-item", has_text=re.compile(r"^Settings$")).click()
+    lab.page.locator(".lm-Menu-item", has_text=re.compile(r"^Theme")).hover()
+    lab.page.get_by_role("menuitem", name=name, exact=True).click()
+    light = "false" if "Dark" in name else "true"
+    lab.page.wait_for_function(f"() => document.body.dataset.jpThemeLight === '{light}'")
+
+
+# ------------------------------------------------------------------------ cells
+
+_CELLS_JS = """() => [...document.querySelectorAll('.jp-Notebook .jp-Cell')].map(cell => ({
+    code: cell.classList.contains('jp-CodeCell'),
+    prompt: (cell.querySelector('.jp-InputArea-prompt') || {}).textContent || '',
+    text: [...cell.querySelectorAll('.jp-InputArea-editor .cm-content .cm-line')]
+        .map(line => line.textContent).join('\\n'),
+}))"""
+
+
+def cells(lab) -> list[dict]:
+    """Every cell of the notebook as shown: code or not, its prompt, its editor text."""
+    return lab.page.evaluate(_CELLS_JS)
+
+
+def code_cell_below(lab, source: str) -> dict:
+    """The cell right below the code cell whose text is ``source`` (scrolled into view)."""
+    shown = cells(lab)
+    index = next(i for i, c in enumerate(shown) if c["code"] and c["text"] == source)
+    below = lab.page.locator(".jp-Notebook .jp-Cell").nth(index + 1)
+    below.scroll_into_view_if_needed()  # CodeMirror renders the lines it shows
+    return cells(lab)[index + 1]
+
+
+# ------------------------------------------------------------------------ the tests
+
+
+def test_quickstart_runs_and_both_views_draw_with_their_bands(lab):
+    lab.open(EXAMPLES / "quickstart.ipynb")
+    lab.run_all()
+    assert lab.tracebacks() == []
+
+    lab.wait_for(".sb-workbench .sb-psd path.area")
+    for view in ("psd", "acf"):
+        d = drawn(lab, view)
+        assert_visible(d.band, "area", f"{view} band")
+        assert_visible(d.line, "line", f"{view} estimate")
+        # the quickstart pins two estimates: each is a dashed or dotted overlay in both views
+        assert len(d.pins) == 2, f"{view}: {len(d.pins)} pin lines"
+        for pin in d.pins:
+            assert_visible(pin, "line", f"{view} pin")
+        assert len({pin["dash"] for pin in d.pins}) == 2 and len({pin["stroke"] for pin in d.pins}) == 2
+    assert lab.page.locator(".sb-pin-row").count() == 2
+    # the estimate on screen at the end is Welch(segment_length=4096)
+    assert merit(lab, "resolution") == resolution_hz(4096)
+    assert "Welch(segment_length=4096)" in status(lab)
+    lab.screenshot("1-views", show=".sb-workbench .sb-psd")
+    lab.screenshot("2-merits-and-pins", show=".sb-workbench .sb-pins")
+
+    # the notebook's own figure: the band of the estimate with the demo's true PSD over it
+    truth = lab.page.locator(".bqplot", has=lab.page.locator(".mainheading", has_text="true PSD"))
+    assert truth.count() == 1
+    curves = curves_of(truth)
+    shade = [c for c in curves if c["area"] and 0 < c["area_opacity"] < 1]
+    lines = [c for c in curves if c["line"] and c["line_opacity"] > 0 and c["line_width"] > 0]
+    assert len(shade) == 1 and len(lines) == 1, (len(shade), len(lines))
+    assert_visible(shade[0], "area", "band of the truth figure")
+    assert_visible(lines[0], "line", "true PSD")
+    lab.screenshot("3-band-and-truth", show='.bqplot:has(.mainheading:has-text("true PSD"))')
+
+    # bench.freeze() inserted its code below, not executed
+    frozen = code_cell_below(lab, "frozen = bench.freeze()  # in JupyterLab: the new cell below")
+    assert frozen["code"] and frozen["text"].startswith("# Frozen spectral estimate")
+    assert "psd_estimator = sb.Welch(segment_length=4096)" in frozen["text"]
+    assert re.fullmatch(r"\[\s*\]:", frozen["prompt"].strip()), frozen["prompt"]
+    lab.screenshot("4-frozen-cell")
+
+    # the views read in both of JupyterLab's themes
+    for view in ("psd", "acf"):
+        assert_axis_text_readable(lab, view)
+    use_theme(lab, "JupyterLab Dark")
+    try:
+        lab.page.wait_for_timeout(300)  # the theme's style sheet applied
+        for view in ("psd", "acf"):
+            assert_axis_text_readable(lab, view)
+            d = drawn(lab, view)
+            assert_visible(d.band, "area", f"{view} band, dark theme")
+        lab.screenshot("5-dark-views", show=".sb-workbench .sb-psd")
+        lab.screenshot("6-dark-merits", show=".sb-workbench .sb-merit")
+    finally:
+        use_theme(lab, "JupyterLab Light")  # the theme is a server setting, shared by the tests
+
+
+def test_segment_length_change_redraws_the_psd_and_the_figures_of_merit(lab):
+    lab.open(notebook(BENCH_CELL), "segment.ipynb")
+    lab.run_all()
+    lab.wait_for(".sb-psd path.area")
+    before = drawn(lab, "psd")
+    assert_visible(before.band, "area", "psd band")
+    assert merit(lab, "resolution") == resolution_hz(1024)
+    assert merit(lab, "segments") == segments(1024)
+    lab.screenshot("1-before", show=".sb-psd")
+
+    with lab.timed("slider to redraw"):
+        handle = lab.wait_for(".sb-control-segment-length .noUi-handle")
+        handle.focus()
+        handle.press("ArrowRight")  # the next power of two: 2048
+        wait_redrawn(lab, "psd", before)
+        lab.page.locator(".sb-merit-resolution", has_text=resolution_hz(2048)).wait_for()
+
+    after = drawn(lab, "psd")
+    assert after.line["line"] != before.line["line"]
+    assert after.band["area"] != before.band["area"]  # the band follows (wider: fewer dof)
+    assert_visible(after.band, "area", "psd band after the change")
+    assert merit(lab, "segments") == segments(2048)
+    assert segment_entry(lab).input_value() == "2048"
+    assert "Welch(segment_length=2048)" in status(lab)
+    lab.screenshot("2-after", show=".sb-psd")
+    lab.screenshot("3-merits", show=".sb-merit")
+
+
+def test_a_pin_adds_an_overlay_in_both_views(lab):
+    lab.open(notebook(BENCH_CELL), "pins.ipynb")
+    lab.run_all()
+    lab.wait_for(".sb-psd path.area")
+    first = {view: drawn(lab, view) for view in ("psd", "acf")}
+    assert all(not d.pins for d in first.values())
+
+    with lab.timed("pin"):
+        lab.page.locator(".sb-pin-button").first.click()
+        lab.page.locator(".sb-pin-row").first.wait_for()
+        lab.page.wait_for_function(
+            "() => [...document.querySelectorAll('.sb-acf path.line')]"
+            ".some(p => getComputedStyle(p).strokeDasharray !== 'none' && (p.getAttribute('d') || '').length > 200)"
+        )
+    for view in ("psd", "acf"):
+        d = drawn(lab, view)
+        assert len(d.pins) == 1, f"{view}: {len(d.pins)} pin lines after one pin"
+        assert_visible(d.pins[0], "line", f"{view} pin")
+        # the pin lies on the estimate it pinned
+        assert d.pins[0]["line"] == d.line["line"]
+    lab.screenshot("1-one-pin", show=".sb-psd")
+
+    with lab.timed("change and pin again"):
+        handle = lab.wait_for(".sb-control-segment-length .noUi-handle")
+        handle.focus()
+        handle.press("ArrowLeft")  # 512
+        lab.page.locator(".sb-merit-resolution", has_text=resolution_hz(512)).wait_for()
+        wait_redrawn(lab, "psd", first["psd"])
+        moved = drawn(lab, "psd")
+        assert len(moved.pins) == 1 and moved.pins[0]["line"] != moved.line["line"]
+        lab.page.locator(".sb-pin-button").first.click()
+        lab.page.wait_for_function("() => document.querySelectorAll('.sb-pin-row').length === 2")
+        lab.page.wait_for_function(
+            "() => [...document.querySelectorAll('.sb-psd path.line')]"
+            ".filter(p => getComputedStyle(p).strokeDasharray !== 'none' && p.getAttribute('d')).length === 2"
+        )
+    for view in ("psd", "acf"):
+        d = drawn(lab, view)
+        assert len(d.pins) == 2, f"{view}: {len(d.pins)} pin lines after two pins"
+        assert d.pins[0]["dash"] != d.pins[1]["dash"] and d.pins[0]["stroke"] != d.pins[1]["stroke"]
+    rows = lab.page.locator(".sb-pin-row").all_text_contents()
+    assert any("1024" in row for row in rows) and any("512" in row for row in rows), rows
+
+    # a third setting: both pins now lie off the estimate on screen
+    before = drawn(lab, "psd")
+    type_segment_length(lab, 4096)
+    wait_redrawn(lab, "psd", before)
+    lab.page.locator(".sb-merit-resolution", has_text=resolution_hz(4096)).wait_for()
+    d = drawn(lab, "psd")
+    assert len(d.pins) == 2 and all(pin["line"] != d.line["line"] for pin in d.pins)
+    lab.screenshot("2-two-pins", show=".sb-psd")
+    lab.screenshot("3-pin-table", show=".sb-pins")
+
+
+def test_an_invalid_setting_shows_its_message_and_the_last_plot_stays(lab):
+    lab.open(notebook(BENCH_CELL), "invalid.ipynb")
+    lab.run_all()
+    lab.wait_for(".sb-psd path.area")
+    good = drawn(lab, "psd")
+    good_resolution = merit(lab, "resolution")
+
+    with lab.timed("invalid entry"):
+        type_segment_length(lab, 200_000)  # longer than the 102,400 samples of the record
+        lab.wait_for(".sb-status.sb-status-error")
+    message = status(lab)
+    assert message.startswith("Not applied:"), message
+    assert "200000" in message.replace(",", "") and "102400" in message.replace(",", ""), message
+    assert lab.page.locator(".sb-control-segment-length.sb-invalid").count() == 1
+    lab.page.wait_for_timeout(300)  # a redraw, if one were (wrongly) on its way
+    kept = drawn(lab, "psd")
+    assert kept.key == good.key, "the plot changed although the setting was refused"
+    assert merit(lab, "resolution") == good_resolution
+    assert lab.tracebacks() == []  # the message is in the widget, not a traceback
+    lab.screenshot("1-refused", show=".sb-status")
+    lab.screenshot("2-refused-controls", show=".sb-control-segment-length")
+
+    with lab.timed("valid entry"):
+        type_segment_length(lab, 4096)
+        wait_redrawn(lab, "psd", good)
+        lab.page.locator(".sb-merit-resolution", has_text=resolution_hz(4096)).wait_for()
+    assert lab.page.locator(".sb-status.sb-status-error").count() == 0
+    assert lab.page.locator(".sb-control-segment-length.sb-invalid").count() == 0
+    assert "Welch(segment_length=4096)" in status(lab)
+    lab.screenshot("3-fixed", show=".sb-psd")
+
+
+FREEZE_CELL = """\
+from pathlib import Path
+
+frozen = bench.freeze()
+_ = Path("frozen.py").write_text(frozen)
+_ = Path("code.py").write_text(bench.code())"""
+
+
+def test_freeze_inserts_a_cell_below_holding_bench_code(lab):
+    lab.open(notebook(BENCH_CELL, FREEZE_CELL), "freeze.ipynb")
+    ran = lab.run_all()
+    assert ran == 2
+    lab.page.wait_for_function("() => document.querySelectorAll('.jp-Notebook .jp-CodeCell').length === 3")
+    folder = lab.server.root / lab.folder
+    returned = (folder / "frozen.py").read_text(encoding="utf-8")
+    code = (folder / "code.py").read_text(encoding="utf-8")
+
+    inserted = code_cell_below(lab, FREEZE_CELL)
+    assert inserted["code"]
+    assert re.fullmatch(r"\[\s*\]:", inserted["prompt"].strip()), "the inserted cell was executed"
+    assert inserted["text"] == returned  # every character, the final newline too
+    # bench.code() called a moment later writes the same cell (its time stamp may differ)
+    assert without_time(inserted["text"]) == without_time(code)
+    assert cells(lab)[-1]["text"] == inserted["text"]  # inserted below the freezing cell
+    lab.screenshot("1-inserted-cell")
+
+
+COPY_CELL = """\
+from pathlib import Path
+
+_ = Path("code.py").write_text(bench.code())"""
+
+
+def test_the_copy_button_puts_the_frozen_code_on_the_clipboard(lab):
+    lab.open(notebook(BENCH_CELL, COPY_CELL), "copy.ipynb")
+    lab.run_all()
+    code = (lab.server.root / lab.folder / "code.py").read_text(encoding="utf-8")
+    lab.page.evaluate("navigator.clipboard.writeText('nothing copied yet')")
+
+    with lab.timed("freeze and copy"):
+        lab.wait_for(".sb-freeze-button").click()
+        shown = lab.page.locator(".sb-freeze-code pre.sb-freeze-code-text")
+        shown.filter(has_text="import specbench as sb").wait_for()
+        lab.screenshot("1-frozen-code", show=".sb-freeze-panel")
+        lab.page.locator("button.sb-copy-button").click()
+        lab.page.locator(".sb-copy-result", has_text="Copied to the clipboard.").wait_for()
+    clipboard = lab.page.evaluate("navigator.clipboard.readText()")
+    assert clipboard == shown.text_content()  # the code in the box, every character
+    assert without_time(clipboard) == without_time(code)
+    lab.screenshot("2-copied", show=".sb-copy-result")
+
