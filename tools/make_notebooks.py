@@ -330,7 +330,8 @@ BATCH_PIPELINE = [
 
     folder = Path(tempfile.mkdtemp(prefix="specbench-batch-"))
     sig = sb.demo("test-stand", duration=20)
-    bench = sb.Workbench(sig, estimator=sb.Welch(segment_length=4096, overlap=0.75))
+    bench = sb.Workbench(sig, estimator=sb.Welch(segment_length=4096, overlap=0.75),
+                         channel="free_end")
     bench
     """),
     md("""
