@@ -119,7 +119,7 @@ class DataStrip:
         self.ax_y = bq.Axis(scale=self.ys, side="left", label_color=AXIS_LABEL, num_ticks=3, label_offset="48px")
         self.figure = bq.Figure(
             marks=[self.trace], axes=[ax_x, self.ax_y], interaction=self.brush,
-            fig_margin=dict(top=6, bottom=40, left=72, right=18), padding_y=0.05, animation_duration=0,
+            fig_margin=dict(top=6, bottom=40, left=72, right=30), padding_y=0.05, animation_duration=0,
             display_toolbar=False,
             layout=W.Layout(width="100%", height="136px"),
         )

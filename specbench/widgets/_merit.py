@@ -79,7 +79,7 @@ def spectrum_merits(spec, corr=None, update_seconds: float | None = None) -> lis
                      "Highest sidelobe of the data window relative to its main lobe (leakage).",
                      None if side is None else float(side)))
     ratio = float(np.ravel(spec.parseval_ratio())[0])
-    out.append(Merit("parseval", "Parseval ratio", fmt(ratio),
+    out.append(Merit("parseval", "Parseval ratio", f"{ratio:.4f}" if np.isfinite(ratio) else fmt(ratio),
                      "Integral of the density over the variance of the detrended data used: 1 within "
                      "estimator bias.", ratio))
     used = int(spec.samples_used)

@@ -16,7 +16,7 @@ CURRENT = "#3a78c2"
 #: axis labels in the theme's text colour (bqplot's dark styling would make them orange)
 AXIS_LABEL = "var(--jp-ui-font-color1)"
 #: opacity of a shaded confidence band
-BAND_OPACITY = 0.22
+BAND_OPACITY = 0.3
 
 #: (colour, dash) of pins 1..8: distinct in hue and in dash, so they also read in grey
 PIN_STYLES: tuple[tuple[str, str], ...] = (

@@ -164,9 +164,9 @@ class _TraceView:
         self.ax_x, self.ax_y = self._make_axes()
         self.figure = bq.Figure(
             marks=[self.band, self.line], axes=[self.ax_x, self.ax_y],
-            fig_margin=dict(top=12, bottom=46, left=72, right=18), padding_y=0.0,
+            fig_margin=dict(top=12, bottom=46, left=72, right=30), padding_y=0.0,
             animation_duration=0, display_toolbar=False,
-            layout=W.Layout(width="100%", height=height, min_width="300px"),
+            layout=W.Layout(width="100%", height=height, min_width="250px"),
         )
         self.figure.add_class(self.css)
         self.readout = W.HTML("<span class='sb-muted'>Click the plot to read values; move to follow, "
@@ -174,10 +174,10 @@ class _TraceView:
         self.readout.add_class("sb-readout")
         self.title = W.HTML(f"<span class='sb-view-title'>{title}</span>", layout=W.Layout(flex="1 1 auto"))
         self.tool = W.ToggleButtons(options=[("read", "read"), ("zoom", "zoom")], value="read",
-                                    style={"button_width": "58px"}, tooltips=[
+                                    style={"button_width": "56px"}, tooltips=[
                                         "Click the plot for values; move to follow, click again to hold.",
                                         "Drag to pan, wheel to zoom; 'whole' resets."])
-        self.reset = W.Button(description="whole", layout=W.Layout(width="66px"),
+        self.reset = W.Button(description="whole", layout=W.Layout(width="60px", flex="0 0 60px"),
                               tooltip="Show the whole estimate again (undo zoom).")
         self.reset.on_click(lambda _: self.reset_zoom())
         self.tool.observe(lambda ch: self._set_tool(), names="value")

@@ -307,20 +307,22 @@ class Workbench(W.VBox):
             self._strip.span.set_value_quietly(self._next_sel.span)
         finally:
             self._applying -= 1
-        self._controls_box = W.VBox(layout=W.Layout(width="340px", min_width="300px", flex="0 0 340px"))
+        # controls above the views, one column per group, wrapping on narrow screens: the two
+        # views keep the full width side by side
+        self._controls_box = W.HBox(layout=W.Layout(width="100%", flex_flow="row wrap", align_items="flex-start"))
         self._controls_box.add_class("sb-controls")
         self._use_class(self._cls)
         self._apply_to_controls(est, corr)
 
         psd_box = W.VBox([self._psd.header, self._psd.figure, self._psd.footer],
-                         layout=W.Layout(flex="1 1 0", min_width="340px"))
+                         layout=W.Layout(flex="1 1 0", min_width="250px"))
         acf_box = W.VBox([self._acf.header, self._acf.figure, self._acf.footer],
-                         layout=W.Layout(flex="1 1 0", min_width="340px"))
+                         layout=W.Layout(flex="1 1 0", min_width="250px"))
         views = gapped(W.HBox([psd_box, acf_box], layout=W.Layout(width="100%", flex_flow="row wrap")), "medium")
-        right = gapped(W.VBox([views, self._status, self._section("Figures of merit"), self._merit.widget,
-                               self._section("Pins"), self._board.widget],
-                              layout=W.Layout(flex="1 1 auto", min_width="0")), "small")
-        main = gapped(W.HBox([self._controls_box, right], layout=W.Layout(width="100%")), "wide")
+        main = gapped(W.VBox([gapped(self._controls_box, "wide"), views, self._status,
+                              self._section("Figures of merit"), self._merit.widget,
+                              self._section("Pins"), self._board.widget],
+                             layout=W.Layout(width="100%")), "small")
         children = [style_sheet(), self._strip.widget, main]
         panel = self._freeze_panel()
         if panel is not None:
@@ -398,7 +400,7 @@ class Workbench(W.VBox):
         self._cls = cls
         self._shared = self._shared_names(cls)
         self._spec_ctrls = {name: self._control(name, spec) for name, spec in cls.params().items()}
-        sections: list[W.Widget] = [self._method]
+        columns: list[list[W.Widget]] = []
         grouped: dict[str, list[FieldControl]] = {}
         data_fields = []
         for name, spec in cls.params().items():
@@ -409,11 +411,12 @@ class Workbench(W.VBox):
         known = [g for g, _ in GROUPS]
         for group, title in GROUPS + tuple((g, g.capitalize()) for g in grouped if g not in known):
             if group in grouped:
-                sections.append(self._section(title))
-                sections += grouped[group]
-        sections.append(self._section("Autocorrelation"))
-        sections += list(self._acf_ctrls.values())
-        self._controls_box.children = sections
+                columns.append([self._section(title), *grouped[group]])
+        columns[0].insert(0, self._method)
+        columns.append([self._section("Autocorrelation"), *self._acf_ctrls.values()])
+        self._controls_box.children = [
+            W.VBox(col, layout=W.Layout(min_width="210px", max_width="320px", flex="1 1 220px")) for col in columns
+        ]
         self._strip.fields_box.children = data_fields
 
     def _apply_to_controls(self, est: SpectralEstimator, corr: Autocorrelation) -> None:
