@@ -49,6 +49,7 @@ QUICKSTART = [
     """),
     code("""
     import numpy as np
+
     import specbench as sb
 
     sb.demos()
