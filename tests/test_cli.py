@@ -315,5 +315,6 @@ def test_demo_serves_the_quickstart(tmp_path):
         log.close()
     text = (tmp_path / "lab.log").read_text()
     assert "copied   quickstart.ipynb" in text
-    # the URL JupyterLab prints (and opens) lands on the notebook
-    assert f"http://127.0.0.1:{port}/lab/tree/quickstart.ipynb?token={token}" in text
+    # the URL JupyterLab prints (and opens) lands on the notebook; Jupyter Server 2 prints
+    # "?token=..." in place of a token taken from the environment
+    assert f"http://127.0.0.1:{port}/lab/tree/quickstart.ipynb?token=" in text
