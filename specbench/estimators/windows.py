@@ -136,18 +136,25 @@ def _window_fix(name: str, kind: WindowKind) -> str:
     return f"Write window={example!r} (parameters: {names})."
 
 
+def split_window(value: Any) -> tuple[str, tuple] | None:
+    """``"hann" -> ("hann", ())``, ``("kaiser", 8.6) -> ("kaiser", (8.6,))``; None if neither form."""
+    if isinstance(value, list):
+        value = tuple(value)
+    if isinstance(value, str):
+        return value, ()
+    if isinstance(value, tuple) and value and isinstance(value[0], str):
+        return value[0], tuple(value[1:])
+    return None
+
+
 class Window(Constraint):
     """Constraint for a window value: a table name or ``(name, params...)``."""
 
     def check(self, value: Any) -> Any:
-        if isinstance(value, list):
-            value = tuple(value)
-        if isinstance(value, str):
-            name, args = value, ()
-        elif isinstance(value, tuple) and value and isinstance(value[0], str):
-            name, args = value[0], tuple(value[1:])
-        else:
+        parts = split_window(value)
+        if parts is None:
             raise ValueError("Give a window name such as 'hann', or a tuple such as ('kaiser', 8.6).")
+        name, args = parts
         key = _ALIASES.get(name.strip().lower(), name.strip().lower())
         if key in _EXCLUDED:
             raise ValueError(f"The window {name!r} is not offered because {_EXCLUDED[key]}.")

@@ -35,7 +35,7 @@ import ipywidgets as W
 import traitlets
 
 from ..estimators._params import Boolean, Interval, Optional, Options, ParamSpec
-from ..estimators.windows import WINDOWS, Window
+from ..estimators.windows import WINDOWS, Window, split_window
 
 __all__ = [
     "Context",
@@ -531,14 +531,10 @@ class WindowControl(FieldControl):
         self.param_box.children = rows
 
     def _show(self, value):
-        if isinstance(value, list):
-            value = tuple(value)
-        if isinstance(value, str):
-            name, args = value, ()
-        elif isinstance(value, tuple) and value and isinstance(value[0], str):
-            name, args = value[0], tuple(value[1:])
-        else:
+        parts = split_window(value)
+        if parts is None:
             return
+        name, args = parts
         if name not in [v for _, v in self.dropdown.options]:
             self.dropdown.options = self._menu(extra=name)
         _assign(self.dropdown, value=name)
