@@ -33,6 +33,14 @@ __all__ = ["Trace", "SpectrumView", "CorrelationView", "spectrum_trace", "correl
 PLOT_AS = (("density", "density"), ("amplitude density", "asd"), ("dB", "db"), ("power", "power"))
 
 
+def _set_range(scale, lo: float, hi: float) -> None:
+    """Set a scale's range in an order that keeps min <= max at every step."""
+    if scale.max is not None and lo > scale.max:
+        scale.max, scale.min = hi, lo
+    else:
+        scale.min, scale.max = lo, hi
+
+
 def fmt(v: float, digits: int = 4) -> str:
     """A number for people: 4 significant digits, no exponent between 1e-3 and 1e5."""
     if v is None or not np.isfinite(v):
@@ -322,10 +330,7 @@ class _TraceView:
             lo, hi = min(float(x[0]) for x in xs), max(float(x[-1]) for x in xs)
             if hi <= lo:
                 lo, hi = (lo / 2, hi * 2) if self._xlog() else (lo - 0.5, hi + 0.5)
-            if self.xs.max is not None and lo > self.xs.max:
-                self.xs.max, self.xs.min = hi, lo
-            else:
-                self.xs.min, self.xs.max = lo, hi
+            _set_range(self.xs, lo, hi)
         finally:
             self._guard -= 1
 
@@ -362,11 +367,7 @@ class _TraceView:
             else:
                 pad = 0.04 * (hi - lo) if hi > lo else max(abs(hi), 1.0) * 0.1
                 lo, hi = lo - pad, hi + pad
-            # set in an order that keeps min <= max at every step
-            if self.ys.max is not None and lo > self.ys.max:
-                self.ys.max, self.ys.min = hi, lo
-            else:
-                self.ys.min, self.ys.max = lo, hi
+            _set_range(self.ys, lo, hi)
         finally:
             self._guard -= 1
 
