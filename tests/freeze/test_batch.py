@@ -12,7 +12,7 @@ import time
 
 import numpy as np
 import pytest
-from conftest import FS, make_state
+from freeze_support import FS, make_state
 
 import specbench as sb
 from specbench.cli import main

@@ -18,7 +18,7 @@ import re
 
 import numpy as np
 import pytest
-from conftest import FS, assert_close, make_state, run_cell
+from freeze_support import FS, assert_close, make_state, run_cell
 
 import specbench as sb
 from specbench.freeze import FreezeState, code_cell

@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import numpy as np
 import pytest
-from conftest import make_state, run_cell
+from freeze_support import make_state, run_cell
 
 import specbench as sb
 from specbench.freeze import FrozenCode, _freeze, code_cell, freeze, read_settings

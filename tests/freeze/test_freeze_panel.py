@@ -7,7 +7,7 @@ import json
 import re
 
 import pytest
-from conftest import make_state
+from freeze_support import make_state
 
 import specbench as sb
 from specbench.freeze import code_cell, read_settings

@@ -6,7 +6,7 @@ import json
 import re
 
 import pytest
-from conftest import make_state
+from freeze_support import make_state
 
 import specbench as sb
 from specbench.estimators import estimator_classes

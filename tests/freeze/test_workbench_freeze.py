@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import numpy as np
 import pytest
-from conftest import assert_close, run_cell
+from freeze_support import assert_close, run_cell
 
 import specbench as sb
 from specbench.freeze import _freeze, read_settings

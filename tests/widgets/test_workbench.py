@@ -12,7 +12,7 @@ import bqplot as bq
 import numpy as np
 import pytest
 import scipy.signal
-from conftest import FS, assert_same_correlation, assert_same_spectrum
+from widget_support import FS, assert_same_correlation, assert_same_spectrum
 
 import specbench as sb
 from specbench.widgets._controls import (
