@@ -16,7 +16,17 @@ import functools
 import numpy as np
 from scipy import stats
 
-__all__ = ["welch_dof", "median_dof_factor", "band_factors", "edge_bins"]
+__all__ = ["welch_dof", "median_bias", "median_dof_factor", "band_factors", "edge_bins"]
+
+
+def median_bias(n: int) -> float:
+    """Expected median of ``n`` independent Exp(1) variables, the divisor of a median average.
+
+    ``1 + sum_{i=1}^{(n-1)//2} [1/(2i+1) - 1/(2i)]`` (Allen et al. 2012, Phys. Rev. D 85,
+    Appendix B): the same factor ``scipy.signal.welch(average="median")`` divides by.
+    """
+    ii = 2.0 * np.arange(1, (n - 1) // 2 + 1)
+    return float(1 + np.sum(1.0 / (ii + 1) - 1.0 / ii))
 
 
 def _pair_correlation(window: np.ndarray, shift: int) -> float:

@@ -81,8 +81,11 @@ class Spectrum:
         """Bin spacing in Hz."""
         return float(self.freq[1] - self.freq[0]) if self.freq.size > 1 else self.fs
 
-    def view(self, kind: str = "density") -> tuple[np.ndarray, np.ndarray, np.ndarray, Any]:
+    def view(self, kind: str = "density", index: Any = None) -> tuple[np.ndarray, np.ndarray, np.ndarray, Any]:
         """The estimate and band as ``(value, lower, upper, unit)`` in another form.
+
+        ``index`` (an index along the frequency axis) converts only those bins, e.g. for a
+        readout at one frequency.
 
         ``"density"`` as computed; ``"asd"`` the square root (``u/sqrt(Hz)``); ``"db"``
         ``10 log10`` of the density (dB re 1 u^2/Hz); ``"power"`` the power spectrum
@@ -93,6 +96,8 @@ class Spectrum:
         if kind not in VIEWS:
             raise ValueError(f"view must be one of {VIEWS}; got {kind!r}")
         v, lo, hi = self.value, self.lower, self.upper
+        if index is not None:
+            v, lo, hi = v[..., index], lo[..., index], hi[..., index]
         if self.scaling == "spectrum" and kind != "power":
             v, lo, hi = (a / self.resolution for a in (v, lo, hi))
         if kind == "density":

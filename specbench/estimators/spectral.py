@@ -45,7 +45,7 @@ from ._common import (
     too_short,
     window_field,
 )
-from ._dof import band_factors, edge_bins, median_dof_factor, welch_dof
+from ._dof import band_factors, edge_bins, median_bias, median_dof_factor, welch_dof
 from ._engine import clean_segments, detrended_variance, segment_power
 from ._params import Boolean, Interval, Optional, Options, param
 from ._results import Spectrum
@@ -162,7 +162,7 @@ def _averaged_periodogram(
         segments=segments, keep_each=median,
     )
     if median:
-        value = np.median(power, axis=1) / scipy.signal._spectral_py._median_bias(nseg)
+        value = np.median(power, axis=1) / median_bias(nseg)
     else:
         value = power / nseg
     if est.scaling == "density":

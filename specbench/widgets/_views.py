@@ -33,6 +33,14 @@ __all__ = ["Trace", "SpectrumView", "CorrelationView", "spectrum_trace", "correl
 PLOT_AS = (("density", "density"), ("amplitude density", "asd"), ("dB", "db"), ("power", "power"))
 
 
+def _nearest(axis: np.ndarray, x: float) -> int:
+    """Index of the sample of the ascending ``axis`` nearest to ``x``."""
+    i = int(np.clip(np.searchsorted(axis, x), 0, axis.size - 1))
+    if i > 0 and abs(axis[i - 1] - x) <= abs(axis[i] - x):
+        i -= 1
+    return i
+
+
 def _set_range(scale, lo: float, hi: float) -> None:
     """Set a scale's range in an order that keeps min <= max at every step."""
     if scale.max is not None and lo > scale.max:
@@ -458,13 +466,11 @@ class SpectrumView(_TraceView):
     def _readout_text(self, x: float) -> str:
         spec = self.result
         f = spec.freq
-        i = int(np.clip(np.searchsorted(f, x), 0, f.size - 1))
-        if i > 0 and abs(f[i - 1] - x) <= abs(f[i] - x):
-            i -= 1
-        value, lower, upper, unit = spec.view(self.kind)
+        i = _nearest(f, x)
+        value, lower, upper, unit = spec.view(self.kind, index=i)  # that bin only: this runs on mouse moves
         dof = np.broadcast_to(spec.dof, spec.value.shape)[..., i]
-        return (f"<b>{fmt(f[i])} Hz</b> &nbsp; {fmt(value[i])} {unit} &nbsp; "
-                f"<span class='sb-muted'>{spec.confidence:.0%} band</span> [{fmt(lower[i])}, {fmt(upper[i])}]"
+        return (f"<b>{fmt(f[i])} Hz</b> &nbsp; {fmt(value)} {unit} &nbsp; "
+                f"<span class='sb-muted'>{spec.confidence:.0%} band</span> [{fmt(lower)}, {fmt(upper)}]"
                 f" &nbsp; <span class='sb-muted'>dof</span> {fmt(float(dof))}")
 
 
@@ -484,9 +490,7 @@ class CorrelationView(_TraceView):
     def _readout_text(self, x: float) -> str:
         c = self.result
         lag = c.lag
-        i = int(np.clip(np.searchsorted(lag, x), 0, lag.size - 1))
-        if i > 0 and abs(lag[i - 1] - x) <= abs(lag[i] - x):
-            i -= 1
+        i = _nearest(lag, x)
         unit = f" {c.unit}" if c.unit else ""
         band = "white-noise band" if c.band == "white" else "Bartlett band"
         return (f"<b>lag {fmt(lag[i])} s</b> ({i} samples) &nbsp; {fmt(c.value[i])}{unit} &nbsp; "
