@@ -42,10 +42,19 @@ __all__ = [
 ]
 
 from .data import Signal, demo, demos, load  # noqa: E402  (registers the pandas/xarray converters)
-from .freeze import Settings, load_settings, read_settings, save_settings  # noqa: E402
+from .freeze import (  # noqa: E402
+    Fingerprint,
+    Settings,
+    check_data,
+    fingerprint,
+    load_settings,
+    read_settings,
+    save_settings,
+)
 
 __all__ += ["Signal", "demo", "demos", "load", "Workbench", "Settings", "load_settings", "read_settings",
             "save_settings"]
+__all__ += ["Fingerprint", "check_data", "fingerprint"]
 
 
 def __getattr__(name: str):

@@ -8,20 +8,25 @@
 """
 
 from ._codegen import STYLES, check_data_name, code_cell
+from ._fingerprint import Fingerprint, check_data, fingerprint
 from ._freeze import FrozenCode, freeze
-from ._settings import SETTINGS_SCHEMA, Settings, load_settings, read_settings, save_settings, save_state
+from ._settings import SETTINGS_SCHEMA, Settings, analysis_name, load_settings, read_settings, save_settings, save_state
 from ._state import FreezeState, Selection, apply_steps
 
 __all__ = [
+    "Fingerprint",
     "FreezeState",
     "FrozenCode",
     "SETTINGS_SCHEMA",
     "STYLES",
     "Selection",
     "Settings",
+    "analysis_name",
     "apply_steps",
+    "check_data",
     "check_data_name",
     "code_cell",
+    "fingerprint",
     "freeze",
     "load_settings",
     "read_settings",

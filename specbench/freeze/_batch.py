@@ -4,10 +4,20 @@ Registered in :data:`specbench.cli.COMMANDS` as ``"estimate": (add_arguments, ru
 
 The recording is read with :func:`specbench.load` (with the reading options stored in
 the settings file, when it was written from loaded data), the stored selection is applied
-(sample rate, channel, span: :meth:`Selection.apply`, as in the workbench), and the
-settings' estimator runs once on the whole selection: exactly the call
+(sample rate, channel, span: :meth:`Selection.apply`, as in the workbench), and every
+analysis of the settings file runs once on the whole selection: exactly the call
 ``estimator(signal)`` the API makes, so the numbers are the API's, bit for bit (the CSV
 writes every float with 17 significant digits, which round-trips).
+
+The main (first) analysis is written to ``--out``; every other analysis NAME to
+``--acf-out`` (for ``acf``), ``--analysis-out NAME=PATH``, or by default beside ``--out``
+as ``<out stem>.NAME<out suffix>``.  ``--only NAME,...`` runs a subset.
+
+How an analysis kind is run and written is looked up in :data:`WRITERS` (estimator kind
+-> :class:`AnalysisWriter`); the spectral and correlation kinds are registered here, and
+a new analysis registers its own with :func:`register_writer` (the helpers
+:func:`write_table` and :func:`write_arrays` write the CSV / NPZ layout).  A kind with no
+writer is reported and skipped, never silently dropped.
 """
 
 from __future__ import annotations
@@ -20,6 +30,8 @@ import sys
 import tempfile
 import threading
 import time
+from collections.abc import Callable
+from dataclasses import dataclass
 from pathlib import Path
 from typing import Any
 
@@ -31,7 +43,8 @@ from ._describe import now_iso, specbench_version
 from ._settings import Settings, read_settings
 from ._state import Selection, apply_steps
 
-__all__ = ["add_arguments", "run", "estimate_file", "LONG_INPUT"]
+__all__ = ["add_arguments", "run", "estimate_file", "LONG_INPUT", "AnalysisWriter", "WRITERS", "register_writer",
+           "write_table", "write_arrays"]
 
 #: inputs with more samples than this (all channels) get a running progress line
 LONG_INPUT = 10_000_000
@@ -52,6 +65,11 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
                         help="result file: .csv (metadata header, then freq_hz,value,lower,upper) or .npz")
     parser.add_argument("--acf-out", type=Path, metavar="ACF",
                         help="also write the autocorrelation of the settings file (.csv or .npz)")
+    parser.add_argument("--analysis-out", action="append", default=[], metavar="NAME=PATH",
+                        help="write the settings' analysis NAME there (default: beside --out, "
+                             "as OUT_STEM.NAME.csv); may be repeated")
+    parser.add_argument("--only", metavar="NAME[,NAME]",
+                        help="run only these analyses of the settings file (default: every one)")
     parser.add_argument("--channel", metavar="NAME",
                         help="channel to analyse, in place of the settings' channel (default: the settings')")
     parser.add_argument("--fs", type=_rate, metavar="HZ",
@@ -177,25 +195,118 @@ def _selection(settings: Settings, args: argparse.Namespace) -> Selection:
     )
 
 
+@dataclass(frozen=True)
+class AnalysisWriter:
+    """How ``specbench estimate`` runs one kind of analysis and writes its result.
+
+    Attributes
+    ----------
+    write : callable ``(path, result, metadata) -> None``
+        Writes the result to ``path`` (``.csv`` or ``.npz``, by its suffix), with the
+        metadata dict in the header (see :func:`write_table` / :func:`write_arrays`).
+    run : callable ``(estimator, signal, options) -> result``, optional
+        Computes the result; default ``estimator(signal)``.  ``options`` is the analysis'
+        ``options`` object of the settings file (``{}`` when none).
+    describe : callable ``(result) -> str``, optional
+        Short note for the progress line, e.g. ``"4,097 frequencies"``.
+    metadata : callable ``(result) -> dict``, optional
+        Entries for the file's metadata (estimator, unit, confidence, ...); ``estimator``
+        and ``estimator_dict`` are added when it does not set them.
+    """
+
+    write: Callable[[Path, Any, dict], None]
+    run: Callable[[Any, Any, dict], Any] | None = None
+    describe: Callable[[Any], str] | None = None
+    metadata: Callable[[Any], dict] | None = None
+
+
+#: estimator kind -> how ``specbench estimate`` runs and writes it (spectral kinds fall back to
+#: the spectrum writer); register new kinds with :func:`register_writer`
+WRITERS: dict[str, AnalysisWriter] = {}
+
+
+def register_writer(kind: str, writer: AnalysisWriter) -> None:
+    """Teach ``specbench estimate`` an analysis kind (an estimator's ``kind``, e.g. ``"CrossSpectrum"``)."""
+    if not isinstance(writer, AnalysisWriter):
+        raise TypeError(f"writer must be an AnalysisWriter; got {type(writer).__name__}")
+    WRITERS[kind] = writer
+
+
+def _writer_for(est: Any) -> AnalysisWriter | None:
+    from ..estimators import SpectralEstimator
+
+    if est.kind in WRITERS:
+        return WRITERS[est.kind]
+    if isinstance(est, SpectralEstimator):
+        return _SPECTRUM
+    return None
+
+
+def _outputs(settings: Settings, args: argparse.Namespace) -> dict[str, Path]:
+    """Analysis name -> output path, for the analyses to run (main one first)."""
+    names = list(settings.analyses)
+    only = getattr(args, "only", None)
+    if only:
+        wanted = [n.strip() for n in only.split(",") if n.strip()]
+        unknown = [n for n in wanted if n not in names]
+        if unknown or not wanted:
+            raise BatchError(f"--only {only!r}: {str(args.settings)!r} holds the analyses {', '.join(names)}; "
+                             "name some of those.")
+        names = [n for n in names if n in wanted]
+    given: dict[str, Path] = {}
+    for item in getattr(args, "analysis_out", None) or []:
+        name, sep, path = item.partition("=")
+        if not sep or not name or not path:
+            raise BatchError(f"--analysis-out {item!r}: write it as NAME=PATH, e.g. acf=run_043_acf.csv.")
+        if name not in settings.analyses:
+            raise BatchError(f"--analysis-out {item!r}: {str(args.settings)!r} has no analysis {name!r}; "
+                             f"its analyses are {', '.join(settings.analyses)}.")
+        given[name] = Path(path)
+    if args.acf_out is not None:
+        if "acf" not in settings.analyses or next(iter(settings.analyses)) == "acf":
+            raise BatchError(f"--acf-out was given, but {str(args.settings)!r} holds no correlation estimator.")
+        given["acf"] = args.acf_out
+    main = next(iter(settings.analyses))
+    out: dict[str, Path] = {}
+    for name in names:
+        if name == main:
+            out[name] = given.get(name, args.out)
+        else:
+            out[name] = given.get(name, args.out.with_name(f"{args.out.stem}.{name}{args.out.suffix}"))
+    return out
+
+
 def estimate_file(args: argparse.Namespace, progress: _Progress) -> dict:
-    """Read, select, estimate and write; returns a summary (used by the tests)."""
+    """Read, select, run every analysis and write; returns a summary (used by the tests).
+
+    The summary has ``"results"`` (name -> result), ``"paths"`` (name -> file written),
+    ``"skipped"`` (name -> reason), ``"signal"``, ``"metadata"`` (of the main analysis),
+    ``"fingerprint"`` (report line) and, for the old callers, ``"spectrum"`` and ``"correlation"``.
+    """
     import specbench as sb
 
-    for out in (args.out, args.acf_out):
-        if out is not None and out.suffix.lower() not in OUT_FORMATS:
+    settings = read_settings(args.settings)
+    outputs = _outputs(settings, args)
+    for out in {args.out, *outputs.values()}:
+        if out.suffix.lower() not in OUT_FORMATS:
             raise BatchError(f"cannot write {str(out)!r}: the result is written as .csv or .npz. "
                              f"Give a file name ending in {' or '.join(OUT_FORMATS)}.")
-        if out is not None and not out.parent.exists():
+        if not out.parent.exists():
             raise BatchError(f"cannot write {str(out)!r}: the folder {str(out.parent)!r} does not exist.")
-    settings = read_settings(args.settings)
-    est = settings.estimator
-    if not isinstance(est, sb.estimators.SpectralEstimator):
+    runnable: dict[str, AnalysisWriter] = {}
+    skipped: dict[str, str] = {}
+    for name in outputs:
+        writer = _writer_for(settings.analyses[name])
+        if writer is None:
+            skipped[name] = (f"{settings.analyses[name].kind} has no writer in specbench estimate "
+                             f"(known: spectral estimators, {', '.join(sorted(WRITERS))})")
+        else:
+            runnable[name] = writer
+    if not runnable:
         raise BatchError(
-            f"the estimator in {str(args.settings)!r} is {est!r}; specbench estimate needs a spectral "
-            "estimator (Welch, Periodogram, Multitaper, Correlogram)."
+            f"{str(args.settings)!r} holds no analysis specbench estimate can run: "
+            + "; ".join(f"{n}: {why}" for n, why in skipped.items()) + "."
         )
-    if args.acf_out is not None and settings.correlation is None:
-        raise BatchError(f"--acf-out was given, but {str(args.settings)!r} holds no correlation estimator.")
     kwargs, steps = _load_options(settings, args)
     data = settings.data or {}
     if data.get("kind") == "demo" and data.get("steps"):
@@ -211,49 +322,66 @@ def estimate_file(args: argparse.Namespace, progress: _Progress) -> dict:
         kind = "memory map" if isinstance(getattr(sig.data, "base", None), np.memmap) or isinstance(
             sig.data, np.memmap) else "in memory"
         ph.note = f"{root.n_channels} x {root.n_samples:,} samples at {root.fs:.9g} Hz ({kind})"
+    fp_line = _fingerprint_report(settings, sig)
+    progress.say(fp_line)
+    for name, why in skipped.items():
+        progress.say(f"skipped the analysis {name!r}: {why}.")
     total = sig.n_channels * sig.n_samples
     long = total > LONG_INPUT
-    with progress.phase(f"estimating {est!r} on {sig.n_channels} x {sig.n_samples:,} samples", long) as ph, \
-            reporting_progress(ph.blocks_done):
-        spec = est(sig)
-        ph.note = f"{spec.value.shape[-1]:,} frequencies"
-    corr = None
-    if args.acf_out is not None:
-        with progress.phase(f"estimating {settings.correlation!r}", long) as ph, reporting_progress(ph.blocks_done):
-            corr = settings.correlation(sig)
-            ph.note = f"{corr.value.shape[-1]:,} lags"
-    meta = _metadata(args, settings, load_call, steps, selection, sig, spec)
-    with progress.phase(f"writing {args.out}") as ph:
-        _write_spectrum(args.out, spec, meta)
-    if corr is not None:
-        with progress.phase(f"writing {args.acf_out}"):
-            _write_correlation(args.acf_out, corr, _acf_metadata(meta, settings, corr))
-    return {"spectrum": spec, "correlation": corr, "signal": sig, "metadata": meta}
-
-
-def _dof_summary(spec: Any) -> str:
-    dof = np.broadcast_to(spec.dof, spec.value.shape)
-    inner = dof[..., 1:-1] if dof.shape[-1] > 2 else dof
-    lo, hi = float(np.min(inner)), float(np.max(inner))
-    text = f"{lo:.6g}" if lo == hi else f"{lo:.6g} to {hi:.6g}"
-    return text + " per bin (DC and Nyquist of real data: half)"
-
-
-def _metadata(args, settings, load_call, steps, selection, sig, spec) -> dict:
-    chosen = "".join(f".{k}({', '.join(map(repr, a))})" for k, *a in list(steps) + selection.steps())
+    base = _base_metadata(args, settings, load_call, steps, selection, sig, fp_line)
+    results: dict[str, Any] = {}
+    metas: dict[str, dict] = {}
+    for name, writer in runnable.items():
+        est = settings.analyses[name]
+        with progress.phase(f"estimating {est!r} on {sig.n_channels} x {sig.n_samples:,} samples", long) as ph, \
+                reporting_progress(ph.blocks_done):
+            opts = settings.options.get(name, {})
+            result = writer.run(est, sig, opts) if writer.run is not None else est(sig)
+            if writer.describe is not None:
+                ph.note = writer.describe(result)
+        meta = dict(base)
+        meta["analysis"] = name
+        extra = writer.metadata(result) if writer.metadata is not None else {}
+        meta.setdefault("estimator", repr(est))
+        meta.setdefault("estimator_dict", est.to_dict())
+        meta.update(extra)
+        if settings.options.get(name):
+            meta["options"] = settings.options[name]
+        results[name], metas[name] = result, meta
+    for name in runnable:
+        with progress.phase(f"writing {outputs[name]}"):
+            runnable[name].write(outputs[name], results[name], metas[name])
+    main = next(iter(results))
     return {
-        "specbench_version": specbench_version(),
-        "created": now_iso(),
-        "data": str(args.data),
-        "data_call": load_call + chosen,
-        "data_source": getattr(sig, "source", ""),
-        "settings": str(args.settings),
-        "settings_written_by": settings.version,
+        "results": results,
+        "paths": {n: outputs[n] for n in results},
+        "skipped": skipped,
+        "signal": sig,
+        "metadata": metas[main],
+        "fingerprint": fp_line,
+        "spectrum": results.get("psd", results[main]),
+        "correlation": results.get("acf") if main != "acf" else None,
+    }
+
+
+def _fingerprint_report(settings: Settings, sig: Any) -> str:
+    """One line: does DATA (as selected) match the samples the settings were chosen on?"""
+    from ._fingerprint import fingerprint
+
+    if settings.fingerprint is None:
+        return "data fingerprint: the settings record none (written without one); not compared."
+    now = fingerprint(sig)
+    diffs = now.differences(settings.fingerprint)
+    if not diffs:
+        return f"data fingerprint: matches the data the settings were chosen on ({now.describe()})."
+    return ("data fingerprint: differs from the data the settings were chosen on: " + "; ".join(diffs)
+            + " (expected for a new run).")
+
+
+def _spectrum_metadata(spec: Any) -> dict:
+    return {
         "estimator": repr(spec.estimator),
         "estimator_dict": spec.estimator.to_dict(),
-        "fs_hz": spec.fs,
-        "channels": list(spec.channels) if spec.channels else None,
-        "samples": int(sig.n_samples),
         "samples_used": int(spec.samples_used),
         "scaling": spec.scaling,
         "onesided": bool(spec.onesided),
@@ -265,12 +393,34 @@ def _metadata(args, settings, load_call, steps, selection, sig, spec) -> dict:
     }
 
 
-def _acf_metadata(meta: dict, settings: Settings, corr: Any) -> dict:
-    out = {k: v for k, v in meta.items() if k not in ("estimator", "estimator_dict", "scaling", "onesided",
-                                                     "unit", "dof", "resolution_hz", "segments", "samples_used")}
-    out.update(estimator=repr(corr.estimator), estimator_dict=corr.estimator.to_dict(), unit=corr.unit,
-               band=corr.band, confidence=corr.confidence, max_lag_samples=int(corr.info["max_lag_samples"]))
-    return out
+def _correlation_metadata(corr: Any) -> dict:
+    return {"estimator": repr(corr.estimator), "estimator_dict": corr.estimator.to_dict(), "unit": corr.unit,
+            "band": corr.band, "confidence": corr.confidence, "max_lag_samples": int(corr.info["max_lag_samples"])}
+
+
+def _dof_summary(spec: Any) -> str:
+    dof = np.broadcast_to(spec.dof, spec.value.shape)
+    inner = dof[..., 1:-1] if dof.shape[-1] > 2 else dof
+    lo, hi = float(np.min(inner)), float(np.max(inner))
+    text = f"{lo:.6g}" if lo == hi else f"{lo:.6g} to {hi:.6g}"
+    return text + " per bin (DC and Nyquist of real data: half)"
+
+
+def _base_metadata(args, settings, load_call, steps, selection, sig, fp_line) -> dict:
+    chosen = "".join(f".{k}({', '.join(map(repr, a))})" for k, *a in list(steps) + selection.steps())
+    return {
+        "specbench_version": specbench_version(),
+        "created": now_iso(),
+        "data": str(args.data),
+        "data_call": load_call + chosen,
+        "data_source": getattr(sig, "source", ""),
+        "settings": str(args.settings),
+        "settings_written_by": settings.version,
+        "fs_hz": sig.fs,
+        "channels": list(sig.channels) if sig.channels else None,
+        "samples": int(sig.n_samples),
+        "fingerprint": fp_line.split(": ", 1)[1],
+    }
 
 
 def _atomic_write(path: Path, write) -> None:
@@ -351,6 +501,51 @@ def _write_npz(path: Path, meta: dict, **arrays: np.ndarray) -> None:
     _atomic_write(path, lambda f: np.savez(f, metadata=np.array(text), **arrays))
 
 
+def write_table(path: Path, meta: dict, axis_name: str, axis: Any, columns: dict[str, Any]) -> None:
+    """Write a table the way ``specbench estimate`` writes its results, for an analysis' writer.
+
+    ``.csv``: the metadata as ``# key: value`` lines, a header row ``axis_name,<column names>``,
+    then one row per axis value, floats with 17 significant digits (round-trips).  ``.npz``:
+    the arrays by name (``axis_name`` and each column) and ``metadata`` as a JSON string.
+    Columns must have the axis' length.  The file is replaced atomically.
+    """
+    axis = np.asarray(axis)
+    cols = {k: np.asarray(v) for k, v in columns.items()}
+    for k, v in cols.items():
+        if v.shape != axis.shape:
+            raise ValueError(f"column {k!r} has shape {v.shape}; the axis {axis_name!r} has {axis.shape}")
+    if path.suffix.lower() == ".csv":
+        import csv
+
+        line = io.StringIO()
+        csv.writer(line, lineterminator="\n").writerow([axis_name, *cols])
+        table = np.column_stack([axis, *cols.values()])
+
+        def write(f) -> None:
+            f.write("".join(f"# {h}\n" for h in _header(meta)).encode("utf-8"))
+            f.write(line.getvalue().encode("utf-8"))
+            np.savetxt(f, table, fmt="%.17g", delimiter=",")
+
+        _atomic_write(path, write)
+    else:
+        _write_npz(path, meta, **{axis_name: axis}, **cols)
+
+
+def write_arrays(path: Path, meta: dict, **arrays: Any) -> None:
+    """Write arrays of any shape with the metadata to an ``.npz`` file (atomically)."""
+    _write_npz(path, meta, **{k: np.asarray(v) for k, v in arrays.items()})
+
+
+_SPECTRUM = AnalysisWriter(write=_write_spectrum, describe=lambda r: f"{r.value.shape[-1]:,} frequencies",
+                           metadata=_spectrum_metadata)
+_CORRELATION = AnalysisWriter(write=_write_correlation, describe=lambda r: f"{r.value.shape[-1]:,} lags",
+                              metadata=_correlation_metadata)
+for _kind in ("Welch", "Periodogram", "Multitaper", "Correlogram"):
+    register_writer(_kind, _SPECTRUM)
+for _kind in ("Autocorrelation", "CrossCorrelation"):
+    register_writer(_kind, _CORRELATION)
+
+
 _FLAGS = {"fs=": "--fs HZ", "time_column=": "--time-column C"}
 
 
@@ -363,13 +558,16 @@ def _command_line_hints(message: str) -> str:
 
 
 def run(args: argparse.Namespace) -> int:
-    """Estimate the PSD of a recording with frozen settings, for pipelines.
+    """Estimate the PSD (and every other analysis) of a recording with frozen settings, for pipelines.
 
     Reads DATA with sb.load (using the reading options stored in the settings file when
     it was written from a loaded file), applies the settings' data selection (sample
-    rate, channel, span), runs the settings' estimator once on the whole selection, and
-    writes frequency, value, lower and upper (per channel) to a .csv file with a metadata
-    header of '#' lines, or to a .npz file with the arrays and a 'metadata' JSON string.
+    rate, channel, span), runs each analysis of the settings file once on the whole
+    selection, and writes, for the PSD, frequency, value, lower and upper (per channel)
+    to a .csv file with a metadata header of '#' lines, or to a .npz file with the arrays
+    and a 'metadata' JSON string. The main analysis goes to --out, the others beside it
+    (OUT_STEM.NAME.csv, or --acf-out / --analysis-out NAME=PATH; --only NAME picks some).
+    It reports whether DATA matches the data fingerprint the settings recorded.
     The numbers are those of the Python API, bit for bit.
 
     Example:
@@ -380,7 +578,7 @@ def run(args: argparse.Namespace) -> int:
     """
     progress = _Progress(sys.stderr, args.quiet)
     try:
-        estimate_file(args, progress)
+        summary = estimate_file(args, progress)
     except (SpecbenchError, BatchError) as e:
         print(f"specbench estimate: {_command_line_hints(str(e))}", file=sys.stderr)
         return 2
@@ -391,5 +589,5 @@ def run(args: argparse.Namespace) -> int:
     except OSError as e:
         print(f"specbench estimate: {e.filename or ''}: {e.strerror or e}", file=sys.stderr)
         return 2
-    progress.say(f"wrote {args.out}" + (f" and {args.acf_out}" if args.acf_out is not None else ""))
+    progress.say("wrote " + ", ".join(f"{p} ({n})" for n, p in summary["paths"].items()))
     return 0

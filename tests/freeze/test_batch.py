@@ -159,7 +159,10 @@ ERRORS = [
     (["--out", "{dir}/none/r.csv"], r"the folder '.*none' does not exist"),
     (["--channel", "nope"], r"No channel named 'nope'; the channels are \['ch0', 'ch1'\]"),
     (["--fs", "0"], r"--fs must be a positive sample rate"),
-    (["--settings", "{acf_settings}"], r"is Autocorrelation\(\); specbench estimate needs a spectral estimator"),
+    (["--settings", "{acf_settings}", "--acf-out", "{dir}/a.csv"], r"--acf-out was given, but .* holds no corr"),
+    (["--only", "noise"], r"--only 'noise': .* holds the analyses psd; name some of those"),
+    (["--analysis-out", "acf"], r"--analysis-out 'acf': write it as NAME=PATH"),
+    (["--analysis-out", "noise={dir}/n.csv"], r"has no analysis 'noise'; its analyses are psd"),
     (["--acf-out", "{dir}/a.csv"], r"--acf-out was given, but .* holds no correlation estimator"),
     (["--settings", "{span_settings}"], r"The span 10 to 99 s reaches outside the record"),
     (["--fs", None], r"states no sample rate. Pass fs=<samples per second>. \(On the command line: --fs HZ.\)"),
@@ -222,3 +225,88 @@ def test_clock_line_shows_the_engines_block_count(monkeypatch):
         ph.blocks_done(3, 10)
         time.sleep(0.7)
     assert "pass 1: [######..............] 3/10 blocks" in stream.getvalue()
+
+
+# --------------------------------------------------------------------------- schema 2: every analysis
+
+
+def test_every_analysis_runs_and_lands_beside_out(tmp_path, npy_file, capsys):
+    analyses = {"psd": sb.Welch(segment_length=1024), "acf": sb.Autocorrelation(max_lag=0.05)}
+    sig = sb.load(npy_file, fs=FS).channel("ch1")
+    settings = save_settings(analyses, tmp_path / "two.json", {"channel": "ch1"}, fingerprint=sig)
+    out = tmp_path / "run.csv"
+    assert main(["estimate", str(npy_file), "-s", str(settings), "-o", str(out), "--fs", "1000"]) == 0
+    psd, acf = analyses["psd"](sig), analyses["acf"](sig)
+    meta, columns, table = _read_csv(out)
+    _assert_equal_columns(table, psd, psd.freq)
+    assert "analysis: psd" in meta
+    meta, columns, table = _read_csv(tmp_path / "run.acf.csv")
+    assert columns[0] == "lag_s" and "analysis: acf" in meta
+    _assert_equal_columns(table, acf, acf.lag)
+    err = capsys.readouterr().err
+    fp = sb.fingerprint(sig)
+    assert f"data fingerprint: matches the data the settings were chosen on ({fp.describe()})." in err
+    assert f"wrote {out} (psd), {tmp_path / 'run.acf.csv'} (acf)" in err
+    # --only picks one analysis; --analysis-out names its file
+    named = tmp_path / "just_acf.npz"
+    assert main(["estimate", str(npy_file), "-s", str(settings), "-o", str(tmp_path / "x.csv"), "--fs", "1000",
+                 "--only", "acf", "--analysis-out", f"acf={named}", "-q"]) == 0
+    assert named.exists() and not (tmp_path / "x.csv").exists()
+    with np.load(named) as z:
+        assert np.array_equal(z["value"], acf.value)
+
+
+def test_a_new_run_is_reported_as_differing(tmp_path, npy_file, record, capsys):
+    sig = sb.load(npy_file, fs=FS)
+    settings = save_settings(sb.Welch(segment_length=512), tmp_path / "w.json", fingerprint=sig)
+    other = tmp_path / "next.npy"
+    np.save(other, record[:, :20000] * 1.5)
+    assert main(["estimate", str(other), "-s", str(settings), "-o", str(tmp_path / "n.csv"), "--fs", "1000"]) == 0
+    err = capsys.readouterr().err
+    assert ("data fingerprint: differs from the data the settings were chosen on: length 20,000 samples, "
+            "made on 24,000; span 0 to 20 s, made on 0 to 24 s; content (the samples differ) "
+            "(expected for a new run).") in err
+    meta, _, _ = _read_csv(tmp_path / "n.csv")
+    assert any(m.startswith("fingerprint: differs from the data") for m in meta)
+    # a file without a fingerprint says so
+    bare = save_settings(sb.Welch(segment_length=512), tmp_path / "bare.json")
+    assert main(["estimate", str(other), "-s", str(bare), "-o", str(tmp_path / "b.csv"), "--fs", "1000"]) == 0
+    assert "data fingerprint: the settings record none" in capsys.readouterr().err
+
+
+def test_a_correlation_only_file_writes_the_correlation(tmp_path, npy_file):
+    settings = save_settings(sb.Autocorrelation(max_lag=0.02), tmp_path / "acf.json")
+    out = tmp_path / "acf.csv"
+    assert main(["estimate", str(npy_file), "-s", str(settings), "-o", str(out), "--fs", "1000", "-q"]) == 0
+    acf = sb.Autocorrelation(max_lag=0.02)(sb.load(npy_file, fs=FS))
+    _, columns, table = _read_csv(out)
+    assert columns[0] == "lag_s"
+    _assert_equal_columns(table, acf, acf.lag)
+
+
+def test_the_writer_hook(tmp_path, npy_file, monkeypatch, capsys):
+    """A new analysis kind registers how it is run and written; a kind without one is reported."""
+    writers = dict(_batch.WRITERS)
+    monkeypatch.setattr(_batch, "WRITERS", writers)
+
+    def run(est, sig, options):
+        return np.atleast_2d(est(sig).value)[:, : options["keep"]]
+
+    def write(path, result, meta):
+        _batch.write_table(path, meta, "index", np.arange(result.shape[1]),
+                           {f"ch{i}": row for i, row in enumerate(result)})
+
+    _batch.register_writer("CrossCorrelation", _batch.AnalysisWriter(
+        write=write, run=run, describe=lambda r: f"{r.shape[1]} values", metadata=lambda r: {"rows": r.shape[0]}))
+    del writers["Autocorrelation"]
+    settings = save_settings({"psd": sb.Welch(segment_length=512), "lags": sb.CrossCorrelation(max_lag=0.01),
+                              "acf": sb.Autocorrelation()}, tmp_path / "hook.json", options={"lags": {"keep": 5}})
+    out = tmp_path / "h.csv"
+    assert main(["estimate", str(npy_file), "-s", str(settings), "-o", str(out), "--fs", "1000"]) == 0
+    meta, columns, table = _read_csv(tmp_path / "h.lags.csv")
+    assert columns == ["index", "ch0"] and table.shape == (5, 2)
+    assert "rows: 1" in meta and "options: {'keep': 5}" in meta and "analysis: lags" in meta
+    assert np.array_equal(table[:, 1], sb.CrossCorrelation(max_lag=0.01)(sb.load(npy_file, fs=FS)).value[:5])
+    err = capsys.readouterr().err
+    assert "skipped the analysis 'acf': Autocorrelation has no writer in specbench estimate" in err
+    assert not (tmp_path / "h.acf.csv").exists()

@@ -97,7 +97,7 @@ def test_save_settings_writes_the_file_and_says_so(bench, tmp_path):
     assert f"Settings file: {path}" in _box_text(panel).replace("\n#   ", " ")
     panel.save_button.click()
     assert "Replaced" in panel.save_result.value
-    assert json.loads(path.read_text())["estimator"]["kind"] == "Welch"
+    assert json.loads(path.read_text())["analyses"]["psd"]["kind"] == "Welch"
 
 
 @pytest.mark.parametrize("value, pattern", [

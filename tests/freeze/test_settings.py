@@ -4,7 +4,9 @@ from __future__ import annotations
 
 import json
 import re
+from pathlib import Path
 
+import numpy as np
 import pytest
 from freeze_support import make_state
 
@@ -60,16 +62,18 @@ def test_file_is_human_readable_and_versioned(tmp_path):
     text = path.read_text()
     assert text.endswith("\n") and text.count("\n") > 20  # indented, one entry a line
     doc = json.loads(text)
-    assert doc["specbench_settings"] == SETTINGS_SCHEMA == 1
+    assert doc["specbench_settings"] == SETTINGS_SCHEMA == 2
     assert doc["specbench_version"] == sb.__version__
     assert re.fullmatch(r"\d{4}-\d\d-\d\dT\d\d:\d\d:\d\d[+-]\d\d:\d\d", doc["created"])
-    assert doc["estimator"] == est.to_dict()
-    assert doc["estimator"]["fields"]["segment_length"] == 4096
-    assert doc["correlation"]["kind"] == "Autocorrelation"
+    assert list(doc["analyses"]) == ["psd", "acf"]
+    assert doc["analyses"]["psd"] == est.to_dict()
+    assert doc["analyses"]["psd"]["fields"]["segment_length"] == 4096
+    assert doc["analyses"]["acf"]["kind"] == "Autocorrelation"
     assert doc["selection"] == {"fs": 2048.0, "channel": "frame", "span": [2.5, 60.0]}
     s = read_settings(path)
     assert s.estimator == est and s.correlation == sb.Autocorrelation(max_lag=0.5)
-    assert s.selection == sel and s.version == sb.__version__ and s.schema == 1 and s.path == path
+    assert s.analyses == {"psd": est, "acf": sb.Autocorrelation(max_lag=0.5)}
+    assert s.selection == sel and s.version == sb.__version__ and s.schema == 2 and s.path == path
 
 
 def test_selection_as_dict_or_none(tmp_path):
@@ -156,8 +160,8 @@ def _fields(**changes) -> dict:
 BAD = [
     ("not-a-dict", [1, 2], r"is not a specbench settings file \(it has no 'specbench_settings' entry\)"),
     ("other-json", {"name": "x"}, r"is not a specbench settings file"),
-    ("newer-schema", _with(specbench_settings=2, specbench_version="9.0"),
-     r"uses settings schema 2 \(written by specbench 9.0\); this specbench .* reads schema 1 to 1\. "
+    ("newer-schema", _with(specbench_settings=3, specbench_version="9.0"),
+     r"uses settings schema 3 \(written by specbench 9.0\); this specbench .* reads schema 1 to 2\. "
      r"Upgrade specbench"),
     ("bad-schema", _with(specbench_settings="1"), r"'specbench_settings' must be a schema number"),
     ("bool-schema", _with(specbench_settings=True), r"'specbench_settings' must be a schema number"),
@@ -246,3 +250,115 @@ def test_file_level_errors(tmp_path):
     nan.write_text(json.dumps(doc).replace('"confidence": 0.95', '"confidence": NaN'))
     with pytest.raises(sb.SettingsError, match=r"The 'confidence' parameter of Welch must be a float"):
         read_settings(nan)
+
+
+# --------------------------------------------------------------------------- schema 2: named analyses
+
+V1_FILE = Path(__file__).parent / "data" / "settings_v1.json"
+
+
+def test_a_committed_schema_1_file_still_reads():
+    """tests/freeze/data/settings_v1.json was written by the schema-1 save_settings (specbench 0.1.0)."""
+    s = read_settings(V1_FILE)
+    assert s.schema == 1 and json.loads(V1_FILE.read_text())["specbench_settings"] == 1
+    welch = sb.Welch(segment_length=2048, overlap=0.75, window=("kaiser", 8.6))
+    assert s.estimator == welch and s.correlation == sb.Autocorrelation(max_lag=0.25)
+    assert s.analyses == {"psd": welch, "acf": sb.Autocorrelation(max_lag=0.25)}
+    assert s.options == {} and s.fingerprint is None
+    assert s.selection == Selection(channel="frame", span=(2.0, 20.0))
+    assert s.data == {"kind": "load", "path": "stand_run.csv", "kwargs": {"time_column": "time"}, "steps": []}
+    assert load_settings(V1_FILE) == welch
+
+
+def test_named_analyses_with_options_round_trip(tmp_path):
+    analyses = {"psd": sb.Multitaper(bandwidth=3.0), "acf": sb.Autocorrelation(max_lag=0.1),
+                "lags": sb.CrossCorrelation(max_lag=0.2)}
+    path = save_settings(analyses, tmp_path / "many.json", options={"lags": {"pair": ["a", "b"]}})
+    doc = json.loads(path.read_text())
+    assert list(doc["analyses"]) == ["psd", "acf", "lags"]
+    assert doc["analyses"]["lags"]["options"] == {"pair": ["a", "b"]}
+    assert "options" not in doc["analyses"]["psd"]
+    s = read_settings(path)
+    assert s.analyses == analyses and list(s.analyses) == ["psd", "acf", "lags"]
+    assert s.options == {"psd": {}, "acf": {}, "lags": {"pair": ["a", "b"]}}
+    assert s.estimator == analyses["psd"] and s.correlation == analyses["acf"]
+    # the same through the keyword form
+    again = save_settings(sb.Multitaper(bandwidth=3.0), tmp_path / "kw.json",
+                          correlation=sb.Autocorrelation(max_lag=0.1),
+                          analyses={"lags": sb.CrossCorrelation(max_lag=0.2)})
+    assert read_settings(again).analyses == analyses
+
+
+def test_fingerprint_is_recorded_and_read(tmp_path):
+    sig = sb.Signal(np.random.default_rng(5).standard_normal((2, 4000)), fs=200.0, channels=["a", "b"])
+    path = save_settings(sb.Welch(), tmp_path / "f.json", fingerprint=sig.channel("b").span(1.0, 11.0))
+    s = read_settings(path)
+    assert s.fingerprint == sb.fingerprint(sig.channel("b").span(1.0, 11.0))
+    assert s.fingerprint.samples == 2000 and s.fingerprint.channels == ("b",) and s.fingerprint.span == (1.0, 11.0)
+
+
+def test_named_analysis_write_errors(tmp_path):
+    with pytest.raises(sb.SettingsError, match=r"the analysis name 'PSD 1' is not a short lower-case identifier"):
+        save_settings({"PSD 1": sb.Welch()}, tmp_path / "s.json")
+    with pytest.raises(sb.SettingsError, match=r"the analysis 'acf' is a str"):
+        save_settings({"psd": sb.Welch(), "acf": "Autocorrelation"}, tmp_path / "s.json")
+    with pytest.raises(sb.SettingsError, match=r"two analyses are named 'acf'"):
+        save_settings(sb.Welch(), tmp_path / "s.json", correlation=sb.Autocorrelation(),
+                      analyses={"acf": sb.Autocorrelation()})
+    with pytest.raises(sb.SettingsError, match=r"options are given for the analysis 'noise', which is not stored"):
+        save_settings(sb.Welch(), tmp_path / "s.json", options={"noise": {"terms": ["white"]}})
+    with pytest.raises(sb.SettingsError, match=r"at least one analysis"):
+        save_settings({}, tmp_path / "s.json")
+    assert list(tmp_path.iterdir()) == []
+
+
+def _good2() -> dict:
+    return {
+        "specbench_settings": 2,
+        "specbench_version": "0.1.0",
+        "created": "2024-05-06T07:08:09+00:00",
+        "analyses": {"psd": sb.Welch(segment_length=2048).to_dict(), "acf": sb.Autocorrelation().to_dict()},
+        "selection": None,
+    }
+
+
+def _with2(**changes) -> dict:
+    doc = _good2()
+    doc.update(changes)
+    return doc
+
+
+BAD2 = [
+    ("old-keys", _with2(estimator=sb.Welch().to_dict()), r"unknown entry 'estimator'; schema 2 has .*'analyses'"),
+    ("no-analyses", {k: v for k, v in _good2().items() if k != "analyses"}, r"it has no 'analyses' entry"),
+    ("empty-analyses", _with2(analyses={}), r"'analyses' must be a non-empty object of named analyses"),
+    ("bad-name", _with2(analyses={"Psd": sb.Welch().to_dict()}), r"the analysis name 'Psd' is not a short"),
+    ("entry-key", _with2(analyses={"psd": {**sb.Welch().to_dict(), "colour": 1}}),
+     r"'analyses.psd' has unknown entry 'colour'; an analysis has 'kind', 'schema', 'fields', 'options'"),
+    ("options-type", _with2(analyses={"psd": {**sb.Welch().to_dict(), "options": [1]}}),
+     r"'analyses.psd'.options must be an object"),
+    ("entry-field", _with2(analyses={"psd": _fields(segment_lenght=512)}),
+     r"in 'analyses.psd': Welch has no parameter 'segment_lenght'"),
+    ("entry-kind", _with2(analyses={"noise": {"kind": "Lomb", "schema": 1, "fields": {}}}),
+     r"in 'analyses.noise': Unknown estimator kind 'Lomb'"),
+    ("fingerprint", _with2(fingerprint={"samples": 10}), r"fingerprint must be an object with exactly samples"),
+    ("fingerprint-value", _with2(fingerprint={"samples": -1, "fs": 1.0, "channels": ["x"], "span": [0, 1],
+                                              "content": "blake2b-128:00"}),
+     r"fingerprint entries must be samples \(positive integer\)"),
+]
+
+
+@pytest.mark.parametrize("name, doc, pattern", BAD2, ids=[b[0] for b in BAD2])
+def test_malformed_schema_2_files_are_rejected(tmp_path, name, doc, pattern):
+    path = tmp_path / f"{name}.json"
+    path.write_text(json.dumps(doc))
+    with pytest.raises(sb.SettingsError, match=pattern) as info:
+        read_settings(path)
+    assert str(path) in str(info.value)
+
+
+def test_the_good_schema_2_document_reads(tmp_path):
+    path = tmp_path / "good2.json"
+    path.write_text(json.dumps(_good2()))
+    s = read_settings(path)
+    assert s.schema == 2 and s.estimator == sb.Welch(segment_length=2048) and s.correlation == sb.Autocorrelation()
