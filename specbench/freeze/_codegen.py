@@ -131,7 +131,14 @@ def _header(state: FreezeState, style: str, settings_path: Any, now: _dt.datetim
 def _specbench_body(state: FreezeState) -> str:
     sig = "sig" if state.data_name != "sig" else "signal"
     out = ["import specbench as sb", ""]
+    if origin_call(getattr(state.signal, "origin", None)) is None:
+        signal = state.signal
+        out += input_guard(state.data_name, f"the data given to the workbench, a specbench Signal or an array "
+                                            f"of {signal.n_channels} channel{'s' if signal.n_channels != 1 else ''}"
+                                            f" x {signal.n_samples:,} samples at {signal.fs:.9g} Hz",
+                           f"{state.data_name} = sb.load('run.csv')")
     out += data_lines(state, sig)
+    out += fingerprint_lines(state, sig)
     out.append(_constructor("psd_estimator", state.estimator))
     acf = state.correlation_estimator
     if acf is not None:
@@ -141,6 +148,43 @@ def _specbench_body(state: FreezeState) -> str:
     if acf is not None:
         out.append(f"correlation = acf_estimator({sig})")
     return "\n".join(out) + "\n"
+
+
+def fingerprint_lines(state: FreezeState, var: str) -> list[str]:
+    """``made_on = sb.Fingerprint(...)`` of the analysed samples and the ``sb.check_data`` call."""
+    from ._fingerprint import fingerprint
+
+    fp = fingerprint(state.analysed_signal())
+    out = wrap_comment(
+        "The data this cell was frozen on: sb.check_data warns (sb.SpecbenchWarning) when "
+        f"`{var}` differs in length, rate, channel, span or content. Reusing the cell on new "
+        "runs on purpose? Set check=False."
+    )
+    out.append("made_on = sb.Fingerprint(")
+    for name in ("samples", "fs", "channels", "span", "content"):
+        out.append(f"    {name}={getattr(fp, name)!r},")
+    out.append(")")
+    out.append(f"sb.check_data({var}, made_on, check=True)")
+    return out
+
+
+def input_guard(name: str, what: str, example: str = "") -> list[str]:
+    """Lines that stop the cell with a clear message when its input variable ``name`` is not defined."""
+    example = example or f"{name} = np.load('run.npy')"
+    message = (f"This frozen cell needs its input `{name}`: {what}. Define {name} before running the cell, "
+               f"e.g. {example}.")
+    chunks, line = [], ""
+    for word in message.split(" "):
+        if line and len(line) + len(word) + 1 > LINE - 12:
+            chunks.append(line + " ")
+            line = word
+        else:
+            line = f"{line} {word}" if line else word
+    chunks.append(line)
+    out = ["try:", f"    {name}", "except NameError:", "    raise RuntimeError("]
+    out += [f"        {chunk!r}" for chunk in chunks]
+    out += ["    ) from None"]
+    return out
 
 
 def _constructor(var: str, est: Any) -> str:

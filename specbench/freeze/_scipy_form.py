@@ -20,7 +20,7 @@ from typing import Any
 import numpy as np
 
 from ..estimators import Autocorrelation, Correlogram, Multitaper, Periodogram, Welch
-from ._codegen import container_converter
+from ._codegen import container_converter, input_guard
 from ._describe import origin_call, py, wrap_comment
 from ._state import FreezeState
 
@@ -70,8 +70,9 @@ def _data_lines(state: FreezeState, var: str) -> list[str]:
     fs, row, cols, analysed = numpy_selection(state)
     shape = f"{signal.n_channels} channel{'s' if signal.n_channels != 1 else ''} {list(signal.channels)}"
     text = (
-        f"Input `{name}`: the data given to the workbench, as an array with samples on the last "
-        f"axis ({shape} x {signal.n_samples:,} samples); from a specbench Signal, pass its .data."
+        f"INPUT: define `{name}` before running this cell: the data given to the workbench, as an "
+        f"array with samples on the last axis ({shape} x {signal.n_samples:,} samples at "
+        f"{signal.fs:.9g} Hz); from a specbench Signal, pass its .data."
     )
     made = origin_call(getattr(signal, "origin", None))
     converter = container_converter(signal)
@@ -84,6 +85,9 @@ def _data_lines(state: FreezeState, var: str) -> list[str]:
         )
         text += f" specbench reads it with {made}{steps}.data"
     out = wrap_comment(text)
+    what = (f"an array of {signal.n_channels} channel{'s' if signal.n_channels != 1 else ''} x "
+            f"{signal.n_samples:,} samples (samples on the last axis)")
+    out += input_guard(name, what)
     if state.fs_override is not None:
         out.append(f"fs = {py(fs)}  # Hz, set in the workbench (the data says {signal.fs:.9g} Hz)")
     else:

@@ -15,13 +15,14 @@ import ast
 import dataclasses
 import datetime as dt
 import re
+import warnings
 
 import numpy as np
 import pytest
 from freeze_support import FS, assert_close, make_state, run_cell
 
 import specbench as sb
-from specbench.freeze import FreezeState, code_cell
+from specbench.freeze import FreezeState, code_cell, read_settings, save_state
 
 SPECTRAL_GRID = [
     sb.Welch(),
@@ -440,3 +441,87 @@ def test_plain_autocorrelation_band_matches_statsmodels(signal):
     np.testing.assert_allclose(ns["acf"][0], ref, rtol=1e-10, atol=1e-13)
     np.testing.assert_allclose(ns["acf_lower"][0], conf[:, 0], rtol=1e-10, atol=1e-13)
     np.testing.assert_allclose(ns["acf_upper"][0], conf[:, 1], rtol=1e-10, atol=1e-13)
+
+
+# --------------------------------------------------------------------------- inputs and fingerprints
+
+_SOURCES = ("array", "signal", "demo", "npy")
+
+
+def _source(kind, record, tmp_path):
+    if kind == "array":
+        return sb.Signal(record, fs=FS)
+    if kind == "signal":
+        return sb.Signal(record, fs=FS, channels=["shaker", "frame"], unit="m/s^2")
+    if kind == "demo":
+        return sb.demo("white-noise", duration=20.0)
+    np.save(tmp_path / "run.npy", record)
+    return sb.load(tmp_path / "run.npy", fs=FS)
+
+
+def _declared_input(code):
+    """The variable the cell's INPUT line names (the only thing the cell says it needs)."""
+    match = re.search(r"^# INPUT: define `(\w+)` before running this cell", code, re.M)
+    assert match, "the plain cell must name its input on an '# INPUT:' line"
+    return match.group(1)
+
+
+@pytest.mark.parametrize("kind", _SOURCES)
+@pytest.mark.parametrize("est", [sb.Welch(segment_length=512), sb.Periodogram(), sb.Multitaper(segment_length=1024),
+                                 sb.Correlogram(max_lag=200)], ids=repr)
+def test_every_plain_cell_runs_given_only_what_it_says_it_needs(tmp_path, record, kind, est):
+    sig = _source(kind, record, tmp_path)
+    state = make_state(sig, est, sb.Autocorrelation(max_lag=0.05), span=(1.0, 9.0), data_name="run_data")
+    code = code_cell(state, "scipy")
+    name = _declared_input(code)
+    assert name == "run_data"
+    ns = run_cell(code, **{name: sig.data})
+    assert_close(ns["psd"], state.spectrum.value, what="psd")
+    assert_close(ns["acf"], state.correlation.value, what="acf")
+    with pytest.raises(RuntimeError, match=r"This frozen cell needs its input `run_data`: an array of "
+                                           rf"{sig.n_channels} channels? x {sig.n_samples:,} samples"):
+        run_cell(code)
+    # the specbench form of in-memory data says the same; loaded and demo data need nothing
+    scode = code_cell(state, "specbench")
+    if kind in ("array", "signal"):
+        with pytest.raises(RuntimeError, match=r"This frozen cell needs its input `run_data`"):
+            run_cell(scode)
+    else:
+        with warnings.catch_warnings():
+            warnings.simplefilter("error", sb.SpecbenchWarning)
+            assert np.array_equal(run_cell(scode)["spectrum"].value, state.spectrum.value)
+
+
+def test_the_specbench_cell_warns_when_its_data_differ(signal):
+    state = make_state(signal, sb.Welch(segment_length=512), channel="frame")
+    code = code_cell(state, "specbench")
+    made = sb.fingerprint(state.analysed_signal())
+    assert f"    content={made.content!r}," in code and "sb.check_data(sig, made_on, check=True)" in code
+    with warnings.catch_warnings():
+        warnings.simplefilter("error", sb.SpecbenchWarning)
+        assert np.array_equal(run_cell(code, x=signal)["spectrum"].value, state.spectrum.value)
+    shorter = sb.Signal(signal.data[:, :15000], fs=signal.fs, channels=signal.channels, unit=signal.unit)
+    with pytest.warns(sb.SpecbenchWarning) as caught:
+        run_cell(code, x=shorter)
+    text = str(caught[0].message)
+    assert text.startswith("The data differ from the data this cell was frozen on: length 15,000 samples, "
+                           "made on 24,000; span 0 to 15 s, made on 0 to 24 s; content (the samples differ).")
+    assert "pass check=False to sb.check_data" in text
+    changed = signal.data.copy()
+    changed[1, 5000] *= 1.0 + 1e-9
+    with pytest.warns(sb.SpecbenchWarning, match=r"frozen on: content \(the samples differ\)\."):
+        run_cell(code, x=sb.Signal(changed, fs=signal.fs, channels=signal.channels, unit=signal.unit))
+    with pytest.warns(sb.SpecbenchWarning,
+                      match=r"frozen on: rate 1024 Hz, made on 1000 Hz; span 0 to 23.4375 s, made on 0 to 24 s\. "):
+        run_cell(code, x=signal.with_fs(1024.0))
+    reuse = code.replace("check=True)", "check=False)")
+    with warnings.catch_warnings():
+        warnings.simplefilter("error", sb.SpecbenchWarning)
+        run_cell(reuse, x=shorter)
+
+
+def test_settings_from_a_state_record_the_fingerprint(tmp_path, signal):
+    state = make_state(signal, sb.Welch(segment_length=512), channel="frame", span=(2.0, 20.0), compute=False)
+    s = read_settings(save_state(state, tmp_path / "s.json"))
+    assert s.fingerprint == sb.fingerprint(state.analysed_signal())
+    assert read_settings(save_state(state, tmp_path / "n.json", fingerprint=False)).fingerprint is None
