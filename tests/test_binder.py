@@ -140,3 +140,7 @@ def _readme_binder_targets() -> list[str]:
 def test_readme_binder_link_opens_a_notebook_of_the_repo(target):
     path = REPO / target.replace("%2F", "/")
     assert path.suffix == ".ipynb" and path.is_file(), f"the Binder link opens {target}: no such file"
+
+
+def test_binder_opens_the_top_level_quickstart():
+    assert "example_notebooks/quickstart.ipynb" in _readme_binder_targets()

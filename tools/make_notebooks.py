@@ -1,7 +1,12 @@
-"""Write the example notebooks in specbench/examples/ from the cells below.
+"""Write the example notebooks in example_notebooks/ and specbench/examples/ from the cells below.
 
     python tools/make_notebooks.py            # (re)write the notebooks
     python tools/make_notebooks.py --check    # exit 1 if a committed notebook differs
+
+``example_notebooks/`` at the top of the repository is where people (and Binder) open
+them; ``specbench/examples/`` holds the same files inside the package, for
+``specbench demo`` after a pip install. Both are written from this one source, byte for
+byte the same.
 
 The notebooks are committed as this script writes them: no outputs, no execution counts,
 fixed cell ids. ``tests/test_make_notebooks.py`` fails when a committed notebook is not
@@ -22,7 +27,11 @@ from pathlib import Path
 
 import nbformat
 
-EXAMPLES = Path(__file__).resolve().parents[1] / "specbench" / "examples"
+REPO = Path(__file__).resolve().parents[1]
+#: where the notebooks are opened from (the repository's top level; Binder opens the quickstart here)
+EXAMPLES = REPO / "example_notebooks"
+#: the copies shipped inside the package, for ``specbench demo``
+PACKAGED = REPO / "specbench" / "examples"
 
 KERNELSPEC = {"display_name": "Python 3 (ipykernel)", "language": "python", "name": "python3"}
 
@@ -441,27 +450,30 @@ def main(argv: list[str] | None = None) -> int:
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     parser.add_argument("--check", action="store_true", help="report differences, write nothing")
     args = parser.parse_args(argv)
-    stale = []
-    for name in NOTEBOOKS:
-        path = EXAMPLES / name
-        text = render(name)
-        if path.exists() and path.read_text(encoding="utf-8") == text:
-            continue
-        stale.append(name)
-        if not args.check:
-            EXAMPLES.mkdir(exist_ok=True)
-            path.write_text(text, encoding="utf-8")
-            print(f"wrote {path}")
-    extra = sorted(p.name for p in EXAMPLES.glob("*.ipynb") if p.name not in NOTEBOOKS)
-    if args.check:
-        for name in stale:
-            print(f"{EXAMPLES / name} differs from tools/make_notebooks.py: run python tools/make_notebooks.py")
-        for name in extra:
-            print(f"{EXAMPLES / name} is not written by tools/make_notebooks.py: add it there or delete it")
-        return 1 if stale or extra else 0
-    for name in extra:
-        print(f"note: {EXAMPLES / name} is not written by this script")
-    return 0
+    failed = False
+    for folder in (EXAMPLES, PACKAGED):
+        stale = []
+        for name in NOTEBOOKS:
+            path = folder / name
+            text = render(name)
+            if path.exists() and path.read_text(encoding="utf-8") == text:
+                continue
+            stale.append(name)
+            if not args.check:
+                folder.mkdir(exist_ok=True)
+                path.write_text(text, encoding="utf-8")
+                print(f"wrote {path}")
+        extra = sorted(p.name for p in folder.glob("*.ipynb") if p.name not in NOTEBOOKS)
+        if args.check:
+            for name in stale:
+                print(f"{folder / name} differs from tools/make_notebooks.py: run python tools/make_notebooks.py")
+            for name in extra:
+                print(f"{folder / name} is not written by tools/make_notebooks.py: add it there or delete it")
+            failed = failed or bool(stale or extra)
+        else:
+            for name in extra:
+                print(f"note: {folder / name} is not written by this script")
+    return 1 if failed else 0
 
 
 if __name__ == "__main__":

@@ -21,7 +21,7 @@ from pathlib import Path
 
 import nbformat
 
-EXAMPLES = Path(__file__).resolve().parents[2] / "specbench" / "examples"
+EXAMPLES = Path(__file__).resolve().parents[2] / "example_notebooks"
 
 FS = 5120.0  # the test-stand demo's rate
 SAMPLES = 20 * 5120  # sb.demo("test-stand", duration=20)
