@@ -4,6 +4,8 @@ from ._base import Estimator, estimator_classes, estimator_from_dict
 from ._params import ParamSpec
 from ._results import Correlation, Spectrum
 from .correlation import Autocorrelation, CrossCorrelation
+from .covariance import Covariance, CovarianceMatrix
+from .cross import CrossSpectrum, CrossSpectrumResult, Delay
 from .spectral import Correlogram, Multitaper, Periodogram, SpectralEstimator, Welch
 from .windows import WINDOWS, WindowInfo, get_window, window_info
 
@@ -11,7 +13,12 @@ __all__ = [
     "Autocorrelation",
     "Correlation",
     "Correlogram",
+    "Covariance",
+    "CovarianceMatrix",
     "CrossCorrelation",
+    "CrossSpectrum",
+    "CrossSpectrumResult",
+    "Delay",
     "Estimator",
     "Multitaper",
     "ParamSpec",

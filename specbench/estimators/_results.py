@@ -228,6 +228,15 @@ class Correlation:
         k = np.argmax(np.abs(self.value), axis=-1)
         return self.lag[k] if np.ndim(k) else float(self.lag[int(k)])
 
+    def delay(self):
+        """Delay of the second channel behind the first from the cross-correlation peak,
+        refined between samples, with its standard error and interval (a
+        :class:`~specbench.estimators.cross.Delay`; see
+        :func:`~specbench.estimators.cross.correlation_delay`)."""
+        from .cross import correlation_delay
+
+        return correlation_delay(self)
+
     def channel(self, key: int | str) -> Correlation:
         if self.value.ndim == 1:
             return self

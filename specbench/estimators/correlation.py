@@ -236,7 +236,7 @@ class CrossCorrelation(Estimator):
         with Timer() as t:
             pos = detrended_copyless_products(a, b, m, self.detrend)[0]
             neg = detrended_copyless_products(b, a, m, self.detrend)[0]
-            need_auto = self.normalize or self.band == "bartlett"
+            need_auto = True  # the autocorrelations also serve Correlation.delay()
             if need_auto:
                 raa = detrended_copyless_products(a, a, m, self.detrend)[0] / n
                 rbb = detrended_copyless_products(b, b, m, self.detrend)[0] / n
@@ -269,5 +269,5 @@ class CrossCorrelation(Estimator):
             kind="cross",
             band=self.band,
             confidence=self.confidence,
-            info=dict(max_lag_samples=m, compute_seconds=t.seconds),
+            info=dict(max_lag_samples=m, compute_seconds=t.seconds, auto=(raa, rbb), norm=norm),
         )

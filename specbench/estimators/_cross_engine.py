@@ -1,0 +1,183 @@
+"""Private engines of the cross-channel estimators.
+
+:func:`cross_segment_products` streams a ``(C, N)`` record in fixed blocks of segments,
+transforms every segment of every channel ONCE, and accumulates the full matrix of
+cross periodograms ``sum_s conj(X_a,s) X_b,s`` for all channel pairs at once (an
+``X^H X`` product per frequency and block).  Like the Welch engine it never copies the
+record (a block of segments is detrended and windowed into a reused per-thread buffer),
+keeps float32 data in float32 FFTs, and adds partial sums in block order so the result
+does not depend on the thread count.
+
+:func:`lag_products_matrix` gives ``sum_t a_i[t] a_j[t+k]`` for all channel pairs and
+``k = 0..m`` by a blocked FFT of the whole record (one pair of FFTs per block and
+channel), with an optional presence mask: missing samples contribute nothing and the
+number of present pairs per lag is returned beside the sums.
+"""
+
+from __future__ import annotations
+
+import math
+import threading
+
+import numpy as np
+import scipy.fft
+from numpy.lib.stride_tricks import sliding_window_view
+
+from ._engine import block_segments, ordered_map
+
+__all__ = ["cross_segment_products", "lag_products_matrix", "work_dtype"]
+
+_LOCAL = threading.local()
+
+
+def _scratch(name: str, shape: tuple[int, ...], dtype: np.dtype) -> np.ndarray:
+    store = getattr(_LOCAL, "buffers", None)
+    if store is None:
+        store = _LOCAL.buffers = {}
+    buf = store.get(name)
+    if buf is None or buf.shape != shape or buf.dtype != dtype:
+        buf = store[name] = np.empty(shape, dtype=dtype)
+    return buf
+
+
+def work_dtype(xs) -> np.dtype:
+    """float32 when every channel is float32 / a small integer, float64 otherwise."""
+    small = all(x.dtype in (np.float32, np.int16, np.int8, np.uint8) for x in xs)
+    return np.dtype(np.float32 if small else np.float64)
+
+
+def _linear_basis(n: int, dtype: np.dtype) -> np.ndarray:
+    t = np.arange(n, dtype=np.float64)
+    q, _ = np.linalg.qr(np.stack([np.ones(n), t - t.mean()], axis=1))
+    return q.astype(dtype)
+
+
+def cross_segment_products(
+    xs,
+    *,
+    window: np.ndarray,
+    step: int,
+    nfft: int,
+    detrend: str,
+    segments: np.ndarray | None = None,
+) -> tuple[np.ndarray, int]:
+    """Sum over segments of the cross periodogram matrix of ``C`` real channels.
+
+    ``xs`` is a ``(C, N)`` array or a sequence of ``C`` equally long 1-D arrays (views of
+    the caller's channels: nothing is stacked or copied).
+
+    Returns ``(S, nseg)`` with ``S[a, b, f] = sum_s conj(X_a,s(f)) X_b,s(f)`` (complex128,
+    shape ``(C, C, nfft // 2 + 1)``, Hermitian in ``a, b``), where ``X_a,s`` is the rfft
+    of segment ``s`` of channel ``a`` after detrending and windowing (scipy.signal.csd's
+    order of operations).  ``segments`` optionally lists the segment indices to use.
+    """
+    nperseg = window.size
+    xs = list(xs)
+    c, n = len(xs), xs[0].shape[-1]
+    n_all = (n - nperseg) // step + 1
+    index = None if segments is None else np.asarray(segments, dtype=np.intp)
+    nseg = n_all if index is None else int(index.size)
+    work = work_dtype(xs)
+    cdt = np.dtype(np.complex64 if work == np.float32 else np.complex128)
+    w = window.astype(work, copy=False)
+    views = [sliding_window_view(xi, nperseg)[::step] for xi in xs]
+    q = _linear_basis(nperseg, work) if detrend == "linear" else None
+    nfreq = nfft // 2 + 1
+    per_block = block_segments(nperseg)
+    starts = list(range(0, nseg, per_block))
+    iu = np.triu_indices(c)
+
+    def run(s0: int) -> np.ndarray:
+        s1 = min(s0 + per_block, nseg)
+        seg = _scratch("xsegments", (c, per_block, nperseg), work)[:, : s1 - s0]
+        for ch, view in enumerate(views):
+            blk = view[s0:s1] if index is None else view[index[s0:s1]]
+            out = seg[ch]
+            if detrend == "constant":
+                mu = blk.mean(axis=-1, keepdims=True, dtype=np.float64)
+                np.subtract(blk, mu, out=out, casting="unsafe")
+                np.multiply(out, w, out=out)
+            elif q is not None:
+                b64 = np.asarray(blk, dtype=work)
+                np.subtract(b64, (b64 @ q) @ q.T, out=out, casting="unsafe")
+                np.multiply(out, w, out=out)
+            else:
+                np.multiply(blk, w, out=out, casting="unsafe")
+        spec = scipy.fft.rfft(seg, n=nfft, axis=-1, workers=1)  # (C, s, F), one FFT per channel
+        part = np.empty((iu[0].size, nfreq), dtype=np.complex128)
+        conj = np.conj(spec)
+        for k, (a, b) in enumerate(zip(*iu)):
+            prod = conj[a] * spec[b] if a != b else (spec[a].real ** 2 + spec[a].imag ** 2).astype(cdt)
+            part[k] = prod.sum(axis=0, dtype=np.complex128)
+        return part
+
+    total = np.zeros((iu[0].size, nfreq), dtype=np.complex128)
+    for part in ordered_map(run, starts):
+        total += part
+    out = np.empty((c, c, nfreq), dtype=np.complex128)
+    out[iu[0], iu[1]] = total
+    out[iu[1], iu[0]] = np.conj(total)
+    diag = np.arange(c)
+    out[diag, diag] = out[diag, diag].real  # auto-spectra are real
+    return out, nseg
+
+
+def lag_products_matrix(
+    a,
+    m: int,
+    center: np.ndarray | None = None,
+    gaps: bool = False,
+) -> tuple[np.ndarray, np.ndarray]:
+    """``S[i, j, k] = sum_t a_i[t] a_j[t + k]`` for ``k = 0..m``, and the pair counts.
+
+    ``a`` is a real ``(C, N)`` array or a sequence of 1-D channels; ``center`` (``(C,)``)
+    is subtracted block by block, so the record is never copied.  With ``gaps=True``
+    non-finite samples are missing: they count as zero in the sums, and the returned
+    counts ``P[i, j, k]`` are the numbers of ``t`` with both ``a_i[t]`` and ``a_j[t + k]``
+    present (``N - k`` everywhere without gaps).  The record is cut into blocks; each
+    block of ``a_i`` is correlated with the ``m``-longer stretch of ``a_j`` and the spectra
+    are summed before one inverse FFT, so each product is counted exactly once.
+    """
+    a = list(a)
+    c, n = len(a), a[0].shape[-1]
+    m = int(m)
+    blk = int(min(n, max(1 << 15, 4 * m)))
+    p = scipy.fft.next_fast_len(blk + m, real=True)
+    nblocks = math.ceil(n / blk)
+    mu = np.zeros(c) if center is None else np.asarray(center, dtype=np.float64)
+
+    def piece(t0: int, t1: int):
+        out = np.array([ai[t0:t1] for ai in a], dtype=np.float64)
+        out -= mu[:, None]
+        if not gaps:
+            return out, None
+        ok = np.isfinite(out)
+        out[~ok] = 0.0
+        return out, ok.astype(np.float64)
+
+    def run(b: int):
+        t0 = b * blk
+        short, ms = piece(t0, min(t0 + blk, n))
+        long, ml = piece(t0, min(t0 + blk + m, n))
+        fsh = scipy.fft.rfft(short, n=p, axis=-1, workers=1)
+        flo = scipy.fft.rfft(long, n=p, axis=-1, workers=1)
+        acc = np.conj(fsh)[:, None, :] * flo[None, :, :]
+        cnt = None
+        if gaps:
+            fms = scipy.fft.rfft(ms, n=p, axis=-1, workers=1)
+            fml = scipy.fft.rfft(ml, n=p, axis=-1, workers=1)
+            cnt = np.conj(fms)[:, None, :] * fml[None, :, :]
+        return acc, cnt
+
+    total = np.zeros((c, c, p // 2 + 1), dtype=np.complex128)
+    counts = np.zeros_like(total) if gaps else None
+    for acc, cnt in ordered_map(run, list(range(nblocks))):
+        total += acc
+        if gaps:
+            counts += cnt
+    s = scipy.fft.irfft(total, n=p, axis=-1)[..., : m + 1]
+    if gaps:
+        pairs = np.rint(scipy.fft.irfft(counts, n=p, axis=-1)[..., : m + 1])
+    else:
+        pairs = np.broadcast_to((n - np.arange(m + 1)).astype(np.float64), s.shape).copy()
+    return s, pairs

@@ -1,0 +1,713 @@
+"""Cross-channel spectral analysis: cross-spectral density, coherence, phase, transfer
+function and time delay, each with its uncertainty.
+
+References
+----------
+.. [W] P. D. Welch, "The use of fast Fourier transform for the estimation of power
+   spectra," IEEE Trans. Audio Electroacoust. AU-15(2), 70-73, 1967.
+.. [C87] G. C. Carter, "Coherence and time delay estimation," Proc. IEEE 75(2), 236-255,
+   1987: the threshold ``1 - alpha**(1/(n_d - 1))`` of zero-coherence estimates (memory).
+.. [EG] L. D. Enochson and N. R. Goodman, "Gaussian approximations to the distribution of
+   sample coherence," AFFDL-TR-65-57, 1965: ``atanh|gamma|`` is about normal with mean
+   ``atanh|gamma| + 1/(2(n_d - 1))`` and variance ``1/(2(n_d - 1))`` (memory).
+.. [BP] J. S. Bendat and A. G. Piersol, *Random Data: Analysis and Measurement
+   Procedures*, 4th ed., Wiley, 2010, sec. 9.2: normalised random errors of the phase,
+   ``sigma[phi] ~ sqrt(1 - gamma^2) / (|gamma| sqrt(2 n_d))`` rad, and of the gain
+   ``eps[|H|]`` the same (Table 9.6; memory).
+.. [KC] C. H. Knapp and G. C. Carter, "The generalized correlation method for estimation of
+   time delay," IEEE Trans. ASSP 24(4), 320-327, 1976: variance of a cross-correlation peak
+   ``int (2 pi f)^2 S_xx S_yy (1 - gamma^2) df / (T [int (2 pi f)^2 |S_xy| df]^2)`` (memory).
+.. [PW] D. B. Percival and A. T. Walden, *Spectral Analysis for Physical Applications*,
+   1993, eq. (292b): the variance of an average of overlapping windowed periodograms.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field
+from typing import Any, ClassVar
+
+import numpy as np
+import scipy.fft
+from scipy import optimize, stats
+
+from .._errors import InputError
+from ._base import Estimator
+from ._common import Timer, confidence_field, detrend_field, nfft_field, nonfinite_error, too_short, window_field
+from ._cross_engine import cross_segment_products
+from ._dof import welch_dof
+from ._engine import as_2d, clean_segments
+from ._input import as_samples
+from ._params import Interval, Options, param
+from ._results import density_unit, power_unit
+from .windows import get_window, window_info, window_label
+
+__all__ = ["CrossSpectrum", "CrossSpectrumResult", "Delay", "select_channels"]
+
+
+def _z(confidence: float) -> float:
+    return float(stats.norm.ppf(0.5 + confidence / 2))
+
+
+# ---------------------------------------------------------------- input
+
+
+@dataclass(frozen=True)
+class Channels:
+    """The channels one cross estimate works on (1-D views of the caller's data)."""
+
+    data: list
+    names: tuple
+    units: tuple
+    fs: float
+    matrix: bool  # all channels (no pair chosen)
+
+
+def _channel_index(key: Any, names: tuple, count: int) -> int:
+    if isinstance(key, str):
+        if key not in names:
+            raise InputError(
+                f"No channel named {key!r}; the channels are {list(names)}. "
+                "Name one of them in pair=(a, b), or give channel indices."
+            )
+        return names.index(key)
+    if isinstance(key, (int, np.integer)) and not isinstance(key, bool):
+        if not -count <= int(key) < count:
+            raise InputError(
+                f"Channel index {key} is out of range for data with {count} channels; "
+                f"use 0 to {count - 1} (or the names {list(names)})."
+            )
+        return int(key) % count
+    raise InputError(f"A channel in pair= must be a name or an index; got {key!r}.")
+
+
+def _unit_list(unit: Any, count: int) -> tuple:
+    return tuple(unit) if isinstance(unit, tuple) else (unit,) * count
+
+
+def select_channels(owner: str, x: Any, y: Any, fs: Any, pair: Any, *, allow_matrix: bool) -> Channels:
+    """Resolve ``x, y=None, fs=, pair=`` into channels, with the errors of the trade."""
+    sx = as_samples(x, fs)
+    if y is not None:
+        if pair is not None:
+            raise InputError(f"{owner}: give either y= or pair=, not both.")
+        sy = as_samples(y, fs if fs is not None else sx.fs)
+        if sy.fs != sx.fs:
+            raise InputError(
+                f"x is sampled at {sx.fs:g} Hz and y at {sy.fs:g} Hz; {owner} needs simultaneous "
+                "samples at one rate. Resample one of them first."
+            )
+        a, b = as_2d(sx.data), as_2d(sy.data)
+        if a.shape[0] != 1 or b.shape[0] != 1:
+            raise InputError(
+                f"{owner}(x, y): x has {a.shape[0]} and y has {b.shape[0]} channels; pass one "
+                "channel each, or one multichannel signal with pair=(a, b)."
+            )
+        if a.shape[-1] != b.shape[-1]:
+            raise InputError(
+                f"x has {a.shape[-1]} samples and y has {b.shape[-1]}; {owner} needs "
+                "simultaneous records of equal length. Cut both to the same span."
+            )
+        names = ((sx.channels or ("x",))[0], (sy.channels or ("y",))[0])
+        units = (_unit_list(sx.unit, 1)[0], _unit_list(sy.unit, 1)[0])
+        return Channels([a[0], b[0]], names, units, sx.fs, False)
+    data = as_2d(sx.data)
+    count = data.shape[0]
+    names = sx.channels or tuple(str(i) for i in range(count))
+    units = _unit_list(sx.unit, count)
+    if pair is None:
+        if count < 2:
+            raise InputError(
+                f"{owner} needs two channels, but the data has {count}. Pass a second signal "
+                "as y=, or a multichannel signal (channels on the leading axis)."
+            )
+        if not allow_matrix and count != 2:
+            raise InputError(
+                f"The data has {count} channels; say which two to use with pair=(a, b) "
+                f"(names {list(names)} or indices)."
+            )
+        return Channels([data[i] for i in range(count)], tuple(names), units, sx.fs, count > 2)
+    if not isinstance(pair, (tuple, list)) or len(pair) != 2:
+        raise InputError(f"pair= must name two channels, like pair=({names[0]!r}, {names[-1]!r}); got {pair!r}.")
+    if count < 2:
+        raise InputError(
+            f"{owner} needs two channels, but the data has only {count} ({list(names)}). Pass a "
+            "second signal as y=."
+        )
+    i, j = (_channel_index(p, tuple(names), count) for p in pair)
+    if i == j:
+        raise InputError(
+            f"pair={tuple(pair)!r} names channel {names[i]!r} twice; choose two different channels."
+        )
+    return Channels([data[i], data[j]], (names[i], names[j]), (units[i], units[j]), sx.fs, False)
+
+
+# ---------------------------------------------------------------- results
+
+
+@dataclass(frozen=True)
+class Delay:
+    """A time-delay estimate with its standard error and interval.
+
+    ``value`` in seconds; positive means the second channel (``y``) lags the first.
+    ``method`` says how it was obtained and where its standard error comes from.
+    """
+
+    value: float
+    stderr: float
+    lower: float
+    upper: float
+    confidence: float
+    method: str
+    channels: tuple | None = None
+    band: tuple | None = None
+    info: dict = field(default_factory=dict)
+
+    @property
+    def samples(self) -> float:
+        """The delay in samples (``value * fs``)."""
+        return self.value * self.info["fs"]
+
+    def __repr__(self) -> str:
+        pct = f"{self.confidence * 100:g} %"
+        return (f"Delay({self.value * 1e3:.5g} ms +- {self.stderr * 1e3:.3g} ms (1 sigma), "
+                f"{pct} interval [{self.lower * 1e3:.5g}, {self.upper * 1e3:.5g}] ms; {self.method})")
+
+
+@dataclass(frozen=True, eq=False)
+class CrossSpectrumResult:
+    """Cross-spectral estimate of a channel pair (arrays ``(nfreq,)``) or of all pairs of
+    ``C`` channels (arrays ``(C, C, nfreq)``, index ``[a, b]`` for ``a`` -> ``b``).
+
+    Attributes
+    ----------
+    freq : (nfreq,) Hz
+    csd : complex one-sided cross-spectral density ``G_xy`` (``conj(X) Y``, as
+        ``scipy.signal.csd``), in ``unit_x*unit_y/Hz`` (density scaling)
+    psd : real auto-spectra ``G_xx, G_yy`` (shape ``(2, nfreq)``, or ``(C, nfreq)``)
+    coherence, coherence_lower, coherence_upper : magnitude-squared coherence and its band
+        (Fisher z-transform of ``|gamma|``, Enochson & Goodman 1965; Bendat & Piersol 2010
+        sec. 9.2), from ``independent_bins``
+    coherence_threshold : (nfreq,) level that an estimate of zero true coherence exceeds
+        with probability ``1 - confidence`` (Carter 1987)
+    phase, phase_lower, phase_upper : rad, of ``G_xy`` (y relative to x; a delay ``d`` gives
+        ``-2 pi f d``); band ``+- z sigma[phi]`` (Bendat & Piersol 2010 Table 9.6)
+    transfer, gain, gain_lower, gain_upper : ``H1 = G_xy / G_xx`` and ``|H1|`` with the band
+        ``|H1| exp(+- z eps)`` (normalised random error ``eps``, Bendat & Piersol 2010)
+    transfer_h2 : ``H2 = G_yy / G_yx``
+    segments : K, segments averaged
+    independent_segments : n_d, the overlap-corrected number of independent segments
+        ``K^2 / (K + 2 sum_d (K - d) rho(d))`` with ``rho(d) = |sum_t w_t w_{t + d step}|^2``
+        (window normalised to unit energy; Percival & Walden 1993 eq. (292b)): half the
+        Welch degrees of freedom
+    independent_bins : (nfreq,) n_d per bin (half at DC and Nyquist)
+    """
+
+    freq: np.ndarray
+    csd: np.ndarray
+    psd: np.ndarray
+    coherence: np.ndarray
+    coherence_lower: np.ndarray
+    coherence_upper: np.ndarray
+    coherence_threshold: np.ndarray
+    phase: np.ndarray
+    phase_lower: np.ndarray
+    phase_upper: np.ndarray
+    transfer: np.ndarray
+    gain: np.ndarray
+    gain_lower: np.ndarray
+    gain_upper: np.ndarray
+    transfer_h2: np.ndarray
+    segments: int
+    independent_segments: float
+    independent_bins: np.ndarray
+    resolution: float
+    fs: float
+    channels: tuple
+    units: tuple
+    confidence: float
+    estimator: Any
+    samples_used: int
+    info: dict = field(default_factory=dict)
+
+    # generic names used by tables and the conformance suite: the coherence and its band
+    @property
+    def value(self) -> np.ndarray:
+        return self.coherence
+
+    @property
+    def lower(self) -> np.ndarray:
+        return self.coherence_lower
+
+    @property
+    def upper(self) -> np.ndarray:
+        return self.coherence_upper
+
+    @property
+    def is_matrix(self) -> bool:
+        return self.csd.ndim == 3
+
+    @property
+    def gain_h2(self) -> np.ndarray:
+        return np.abs(self.transfer_h2)
+
+    @property
+    def unit(self) -> str:
+        """Unit of ``csd`` (pair results)."""
+        ux, uy = self.units[0], self.units[-1]
+        prod = power_unit(ux) if ux == uy else (f"{ux}*{uy}" if ux and uy else ux or uy)
+        if self.estimator.scaling == "density":
+            return density_unit(ux) if ux == uy else f"{prod}/Hz"
+        return prod
+
+    @property
+    def gain_unit(self) -> str:
+        ux, uy = self.units[0], self.units[-1]
+        return "" if ux == uy else f"{uy}/{ux}" if ux else uy
+
+    def pair(self, a: int | str, b: int | str) -> CrossSpectrumResult:
+        """The result of one pair ``a -> b`` out of a full-matrix result."""
+        if not self.is_matrix:
+            keys = {self.channels[0]: 0, self.channels[1]: 1, 0: 0, 1: 1}
+            if (a, b) in ((self.channels[0], self.channels[1]), (0, 1)):
+                return self
+            if a in keys and b in keys and keys[a] != keys[b]:
+                raise InputError("This result is for one pair; estimate the reversed pair with pair=(b, a).")
+            raise InputError(f"No pair ({a!r}, {b!r}) in a result for {self.channels}.")
+        c = self.csd.shape[0]
+        i, j = _channel_index(a, self.channels, c), _channel_index(b, self.channels, c)
+        if i == j:
+            raise InputError(f"pair({a!r}, {b!r}) names one channel twice; choose two different channels.")
+        pick = {k: getattr(self, k)[i, j] for k in (
+            "csd", "coherence", "coherence_lower", "coherence_upper", "phase", "phase_lower",
+            "phase_upper", "transfer", "gain", "gain_lower", "gain_upper", "transfer_h2")}
+        from dataclasses import replace
+
+        return replace(self, psd=self.psd[[i, j]], channels=(self.channels[i], self.channels[j]),
+                       units=(self.units[i], self.units[j]), **pick)
+
+    def delay(self, band: tuple[float, float] | None = None) -> Delay:
+        """Time delay of ``y`` relative to ``x`` from the slope of the phase.
+
+        Over the bins of ``band`` (Hz; default the whole range) whose coherence exceeds
+        ``coherence_threshold``, the phase is unwrapped (around a coarse delay from the
+        peak of the phase-only inverse transform) and fitted by weighted least squares
+        ``phi(f) = a - 2 pi f d``, weights ``1 / sigma[phi]^2`` (Bendat & Piersol 2010).
+        The standard error of ``d`` is the sandwich variance of that fit with the
+        correlation between neighbouring bins of the window, ``|c_j|^2`` with
+        ``c_j = sum_t w_t^2 exp(-2i pi j t / nfft) / sum_t w_t^2`` (our derivation); the
+        interval is ``d +- z stderr``.
+        """
+        if self.is_matrix:
+            raise InputError(
+                "delay() needs one pair: take it from res.pair(a, b).delay(...), or estimate "
+                "with pair=(a, b)."
+            )
+        return _phase_delay(self, band)
+
+    def to_dataframe(self):
+        import pandas as pd
+
+        if self.is_matrix:
+            raise InputError("to_dataframe() works on one pair: use res.pair(a, b).to_dataframe().")
+        cols = {k: getattr(self, k) for k in (
+            "coherence", "coherence_lower", "coherence_upper", "coherence_threshold", "phase",
+            "phase_lower", "phase_upper", "gain", "gain_lower", "gain_upper")}
+        cols = {"csd_real": self.csd.real, "csd_imag": self.csd.imag, **cols}
+        return pd.DataFrame(cols, index=pd.Index(self.freq, name="freq_hz"))
+
+    def __repr__(self) -> str:
+        what = f"{len(self.channels)} channels (all pairs)" if self.is_matrix else f"{self.channels[0]} -> {self.channels[1]}"
+        return (f"<CrossSpectrumResult {what}: {self.freq.size} bins to {self.freq[-1]:g} Hz, "
+                f"resolution {self.resolution:.4g} Hz, K = {self.segments} segments, "
+                f"n_d = {self.independent_segments:.4g} independent; {self.estimator!r}>")
+
+
+# ---------------------------------------------------------------- estimator
+
+
+def _coherence_bands(coh: np.ndarray, nd: np.ndarray, confidence: float):
+    """Fisher z band of |gamma| (Enochson & Goodman 1965), returned for gamma^2."""
+    z = _z(confidence)
+    ndm1 = np.maximum(nd - 1.0, 1e-12)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        zh = np.arctanh(np.sqrt(np.clip(coh, 0.0, 1.0 - 1e-16))) - 1.0 / (2.0 * ndm1)
+        sd = 1.0 / np.sqrt(2.0 * ndm1)
+        lo = np.tanh(np.maximum(zh - z * sd, 0.0)) ** 2
+        hi = np.tanh(np.maximum(zh + z * sd, 0.0)) ** 2
+    return lo, np.maximum(hi, lo)
+
+
+def _random_error(coh: np.ndarray, nd: np.ndarray) -> np.ndarray:
+    """sqrt(1 - gamma^2) / (|gamma| sqrt(2 n_d)) (Bendat & Piersol 2010, Table 9.6)."""
+    with np.errstate(divide="ignore", invalid="ignore"):
+        return np.sqrt(np.clip(1.0 - coh, 0.0, None)) / (np.sqrt(coh) * np.sqrt(2.0 * nd))
+
+
+@dataclass(frozen=True, kw_only=True, repr=False)
+class CrossSpectrum(Estimator):
+    """Welch-type averaged cross periodograms of two (or all) channels [W]_.
+
+    Each channel is cut into segments of ``segment_length`` samples overlapping by
+    ``overlap``; each segment is detrended, windowed and transformed once, and
+    ``conj(X_a) X_b`` is averaged over segments for every pair.  For the same settings the
+    cross-spectral density equals ``scipy.signal.csd`` and the coherence
+    ``scipy.signal.coherence`` to floating-point precision.
+
+    Uncertainty comes from ``n_d``, the overlap-corrected number of independent segments
+    (half the Welch degrees of freedom, Percival & Walden 1993 eq. (292b)):
+
+    - coherence threshold ``1 - alpha**(1/(n_d - 1))``, ``alpha = 1 - confidence``
+      (Carter 1987): zero true coherence exceeds it with probability ``alpha``;
+    - coherence band: Fisher z-transform of ``|gamma|`` with bias ``1/(2(n_d - 1))`` and
+      variance ``1/(2(n_d - 1))`` (Enochson & Goodman 1965; Bendat & Piersol 2010 sec. 9.2);
+    - phase band ``phi +- z sigma``, gain band ``|H1| exp(+- z sigma)`` with
+      ``sigma = sqrt(1 - gamma^2) / (|gamma| sqrt(2 n_d))`` (Bendat & Piersol 2010,
+      Table 9.6, normalised random errors).
+
+    Call it as ``xs(signal, pair=("a", "b"))`` (names or indices), ``xs(x, y, fs=...)``,
+    or ``xs(signal)`` for all pairs of a multichannel signal (``res.pair(a, b)``).  A
+    two-channel signal without ``pair`` gives the pair ``(0, 1)``.
+
+    Examples
+    --------
+    >>> import numpy as np, specbench as sb
+    >>> rng = np.random.default_rng(1)
+    >>> x = rng.standard_normal(200_000)
+    >>> y = x + rng.standard_normal(x.size)          # signal-to-noise ratio s = 1
+    >>> res = sb.CrossSpectrum(segment_length=512)(x, y, fs=1000.0)
+    >>> print(f"coherence {np.median(res.coherence):.3f} (s/(1+s) = 0.5)")
+    coherence 0.501 (s/(1+s) = 0.5)
+    """
+
+    kind: ClassVar[str] = "CrossSpectrum"
+    title: ClassVar[str] = "Cross spectrum (averaged segments)"
+
+    window: Any = window_field("hann")
+    segment_length: int = param(
+        1024,
+        Interval(int, 4, None),
+        label="Segment length",
+        unit="samples",
+        scale="log2",
+        group="window",
+        help="Samples per segment: longer gives finer resolution and fewer averages.",
+    )
+    overlap: float = param(
+        0.5,
+        Interval(float, 0, 1, closed="left"),
+        label="Overlap",
+        group="window",
+        help="Fraction of each segment shared with the next.",
+    )
+    detrend: str = detrend_field()
+    scaling: str = param(
+        "density",
+        Options(("density", "spectrum")),
+        label="Scaling",
+        group="display",
+        help="density: unit^2/Hz; spectrum: unit^2. Coherence, phase and gain do not depend on it.",
+    )
+    nfft: int | None = nfft_field("FFT length per segment (>= segment length; zero padding interpolates).")
+    confidence: float = confidence_field()
+    gaps: str = param(
+        "error",
+        Options(("error", "skip")),
+        label="Gaps",
+        group="data",
+        help="error: non-finite samples are an error; skip: leave out segments that touch them.",
+    )
+
+    def _check(self) -> None:
+        if self.nfft is not None and self.nfft < self.segment_length:
+            self._fail("nfft", f"None or an integer >= segment_length ({self.segment_length})",
+                       "Zero padding can only lengthen a segment.")
+
+    @property
+    def noverlap(self) -> int:
+        return int(math.floor(self.overlap * self.segment_length))
+
+    def __call__(self, x: Any, y: Any = None, *, fs: float | None = None,
+                 pair: tuple | None = None) -> CrossSpectrumResult:
+        """Estimate the cross spectra of ``x`` and ``y``, of ``pair``, or of all channels."""
+        ch = select_channels("CrossSpectrum", x, y, fs, pair, allow_matrix=True)
+        if any(np.iscomplexobj(c) for c in ch.data):
+            raise InputError("CrossSpectrum supports real data only; pass the real and imaginary parts separately.")
+        n = ch.data[0].shape[-1]
+        nperseg = self.segment_length
+        if nperseg > n:
+            raise too_short("CrossSpectrum", "segment_length", nperseg, n,
+                            f"Choose segment_length <= {n // 2} so that at least two segments are "
+                            "averaged, or analyse a longer span.")
+        step = nperseg - self.noverlap
+        nfft = self.nfft or nperseg
+        n_all = (n - nperseg) // step + 1
+        mask = None
+        if self.gaps == "skip":
+            clean = np.ones(n_all, dtype=bool)
+            for c in ch.data:
+                clean &= clean_segments(c[None, :], nperseg, step)
+            if not clean.all():
+                mask = clean
+                if not mask.any():
+                    raise InputError(
+                        f"Every one of the {n_all} segments touches a non-finite sample, so "
+                        "CrossSpectrum(gaps='skip') has nothing left to average. Use a shorter "
+                        "segment_length, or a span with fewer gaps."
+                    )
+        used = n_all if mask is None else int(mask.sum())
+        if used < 2:
+            raise InputError(
+                f"CrossSpectrum would average {used} segment{'s' if used != 1 else ''} "
+                f"(segment_length={nperseg} of {n} samples{', after leaving out gaps' if mask is not None else ''}): "
+                "with one segment the coherence is identically 1 whatever the data, so it says "
+                f"nothing. Choose a shorter segment_length (at most {max(4, n // 2)}, ideally "
+                "giving 8 or more segments) or a longer record."
+            )
+        w = get_window(self.window, nperseg)
+        with Timer() as t, np.errstate(invalid="ignore", over="ignore"):
+            s, k = cross_segment_products(ch.data, window=w, step=step, nfft=nfft, detrend=self.detrend,
+                                          segments=None if mask is None else np.nonzero(mask)[0])
+        diag = np.arange(len(ch.data))
+        if not np.all(np.isfinite(s[diag, diag].real)):
+            for c in ch.data:
+                if not np.all(np.isfinite(c)):
+                    raise nonfinite_error(c[None, :], "CrossSpectrum")
+        scale = 1.0 / (ch.fs * float(np.dot(w, w))) if self.scaling == "density" else 1.0 / float(w.sum()) ** 2
+        g = s * (scale / k)
+        if nfft % 2:
+            g[..., 1:] *= 2
+        else:
+            g[..., 1:-1] *= 2
+        nd = welch_dof(w, step, k if mask is None else mask) / 2.0
+        ndb = np.full(g.shape[-1], nd)
+        ndb[0] *= 0.5
+        if nfft % 2 == 0:
+            ndb[-1] *= 0.5
+        auto = g[diag, diag].real  # (C, F)
+        with np.errstate(divide="ignore", invalid="ignore"):
+            coh = np.abs(g) ** 2 / auto[:, None, :] / auto[None, :, :]
+            h1 = g / auto[:, None, :]
+            h2 = auto[None, :, :] / np.conj(g)
+        alpha = 1.0 - self.confidence
+        thr = 1.0 - alpha ** (1.0 / np.maximum(ndb - 1.0, 1e-12))
+        clo, chi = _coherence_bands(coh, ndb, self.confidence)
+        eps = _random_error(coh, ndb - 1.0)
+        tq = stats.t.ppf(0.5 + self.confidence / 2, np.maximum(2.0 * ndb - 2.0, 1.0))
+        significant = coh > thr
+        phase = np.angle(g)
+        half = np.where(significant, np.minimum(tq * eps, np.pi), np.pi)
+        gain = np.abs(h1)
+        with np.errstate(over="ignore", invalid="ignore"):
+            glo = np.where(significant, gain * np.exp(-tq * eps), 0.0)
+            ghi_bound = np.sqrt(chi * auto[None, :, :] / auto[:, None, :])  # |H1| = |gamma| sqrt(Gyy/Gxx)
+            ghi = np.where(significant, gain * np.exp(tq * eps), np.maximum(ghi_bound, gain))
+        info = window_info(self.window, nperseg)
+        freq = scipy.fft.rfftfreq(nfft, 1.0 / ch.fs)
+        arrays = dict(csd=g, coherence=coh, coherence_lower=clo, coherence_upper=chi, phase=phase,
+                      phase_lower=phase - half, phase_upper=phase + half, transfer=h1, gain=gain,
+                      gain_lower=glo, gain_upper=ghi, transfer_h2=h2)
+        if not ch.matrix:
+            arrays = {key: v[0, 1] for key, v in arrays.items()}
+        return CrossSpectrumResult(
+            freq=freq, psd=auto, coherence_threshold=thr, segments=int(k), independent_segments=float(nd),
+            independent_bins=ndb, resolution=info.enbw_bins * ch.fs / nperseg, fs=ch.fs,
+            channels=ch.names, units=ch.units, confidence=self.confidence, estimator=self,
+            samples_used=(n_all - 1) * step + nperseg,
+            info=dict(nperseg=nperseg, noverlap=nperseg - step, step=step, nfft=nfft,
+                      window_label=window_label(self.window), enbw_bins=info.enbw_bins,
+                      segments_skipped=0 if mask is None else int(n_all - k),
+                      samples_dropped=n - ((n_all - 1) * step + nperseg),
+                      compute_seconds=t.seconds),
+            **arrays,
+        )
+
+
+# ---------------------------------------------------------------- delay from the phase slope
+
+
+def _bin_correlation(window: np.ndarray, nfft: int, max_shift: int) -> np.ndarray:
+    """|c_j|^2, j = 0..max_shift: correlation of cross-spectral errors j bins apart."""
+    w2 = window.astype(np.float64) ** 2
+    t = np.arange(w2.size)
+    j = np.arange(max_shift + 1)[:, None]
+    c = (w2[None, :] * np.exp(-2j * np.pi * j * t[None, :] / nfft)).sum(axis=1) / w2.sum()
+    return np.abs(c) ** 2
+
+
+def _check_band(band: Any, fs: float, owner: str) -> tuple[float, float]:
+    nyq = fs / 2
+    if band is None:
+        return 0.0, nyq
+    try:
+        f1, f2 = (float(v) for v in band)
+    except (TypeError, ValueError):
+        raise InputError(f"{owner}: band= must be two frequencies (f1, f2) in Hz; got {band!r}.") from None
+    if not (math.isfinite(f1) and math.isfinite(f2)) or f1 >= f2:
+        raise InputError(f"{owner}: band=({f1:g}, {f2:g}) Hz must have f1 < f2. Give band=(low, high).")
+    if f1 < 0 or f2 > nyq * (1 + 1e-12):
+        raise InputError(
+            f"{owner}: band=({f1:g}, {f2:g}) Hz lies outside the data's range 0 to {nyq:g} Hz "
+            f"(half the sample rate {fs:g} Hz). Choose a band inside it."
+        )
+    return f1, f2
+
+
+def _phase_delay(res: CrossSpectrumResult, band: Any) -> Delay:
+    f1, f2 = _check_band(band, res.fs, "delay()")
+    freq = res.freq
+    interior = np.ones(freq.size, dtype=bool)
+    interior[0] = False
+    if res.info["nfft"] % 2 == 0:
+        interior[-1] = False
+    inband = (freq >= f1) & (freq <= f2) & interior
+    coherent = inband & (res.coherence > res.coherence_threshold)
+    if coherent.sum() < 2:
+        top = float(np.max(res.coherence[inband])) if inband.any() else float("nan")
+        raise InputError(
+            f"delay(band=({f1:g}, {f2:g}) Hz): {int(coherent.sum())} bin(s) of {int(inband.sum())} in the "
+            f"band have coherence above the threshold {float(np.median(res.coherence_threshold)):.3g} "
+            f"(largest {top:.3g}); at least 2 are needed to fit a phase slope. Choose a band where "
+            "the channels are coherent, or raise the number of segments (shorter segment_length, "
+            "longer record)."
+        )
+    idx = np.nonzero(coherent)[0]
+    g = res.csd
+    nfft = res.info["nfft"]
+    # coarse delay: peak of the phase-only (unit-magnitude) inverse transform over coherent bins
+    up = 8
+    spec = np.zeros(nfft * up // 2 + 1, dtype=np.complex128)
+    spec[idx] = g[idx] / np.abs(g[idx])
+    cc = scipy.fft.irfft(spec, n=nfft * up)
+    kmax = int(np.argmax(cc))
+    if kmax > nfft * up // 2:
+        kmax -= nfft * up
+    tau0 = kmax / (res.fs * up)  # irfft of conj(X) Y peaks at +d when y lags x by d
+    f = freq[idx]
+    resid = np.angle(g[idx] * np.exp(2j * np.pi * f * tau0))
+    resid = np.unwrap(resid)
+    sigma = _random_error(res.coherence[idx], res.independent_bins[idx])
+    wts = 1.0 / sigma**2
+    a = np.stack([np.ones_like(f), f], axis=1)
+    aw = a * wts[:, None]
+    bread = np.linalg.inv(a.T @ aw)
+    coef = bread @ (aw.T @ resid)
+    # sandwich variance with the window's bin-to-bin correlation
+    span = int(idx[-1] - idx[0])
+    rho = _bin_correlation(get_window(res.estimator.window, res.info["nperseg"]), nfft, min(span, 64))
+    dist = np.abs(idx[:, None] - idx[None, :])
+    corr = np.where(dist <= min(span, 64), rho[np.minimum(dist, rho.size - 1)], 0.0)
+    meat = aw.T @ (corr * np.outer(sigma, sigma)) @ aw
+    cov = bread @ meat @ bread
+    value = tau0 - coef[1] / (2 * np.pi)
+    stderr = math.sqrt(max(cov[1, 1], 0.0)) / (2 * np.pi)
+    z = _z(res.confidence)
+    return Delay(
+        value=float(value), stderr=float(stderr), lower=float(value - z * stderr),
+        upper=float(value + z * stderr), confidence=res.confidence,
+        method="weighted least-squares phase slope over coherent bins (Bendat & Piersol 2010 errors)",
+        channels=res.channels, band=(f1, f2),
+        info=dict(fs=res.fs, bins_used=int(idx.size), bins_in_band=int(inband.sum()),
+                  intercept_rad=float(coef[0]), coarse_delay=float(tau0)),
+    )
+
+
+# ---------------------------------------------------------------- delay from a cross-correlation peak
+
+
+def _sinc_sum(tau: float, k: np.ndarray, r: np.ndarray, deriv: int = 0) -> float:
+    """Whittaker-Shannon interpolation sum_k r_k sinc(tau - k) (in samples) or a derivative."""
+    u = tau - k
+    if deriv == 0:
+        return float(np.dot(r, np.sinc(u)))
+    pu = np.pi * u
+    small = np.abs(u) < 1e-6
+    safe = np.where(small, 1.0, u)
+    if deriv == 1:
+        d = np.where(small, 0.0, (np.cos(pu) * pu - np.sin(pu)) / (np.pi * safe**2))
+        return float(np.dot(r, d))
+    psafe = np.pi * safe
+    d2 = (-(psafe**2) * np.sin(psafe) - 2 * psafe * np.cos(psafe) + 2 * np.sin(psafe)) / (np.pi * safe**3)
+    d2 = np.where(small, -(np.pi**2) / 3.0, d2)
+    return float(np.dot(r, d2))
+
+
+def correlation_delay(corr: Any, half_width: int = 32) -> Delay:
+    """Delay of a cross :class:`Correlation` from its peak, with a standard error.
+
+    The peak is refined to a fraction of a sample by maximising the band-limited
+    (Whittaker-Shannon, sinc) interpolation of the correlation over +-``half_width``
+    lags around the largest sample.  The standard error is the linearised variance of a
+    cross-correlation peak (Knapp & Carter 1976, with the Bartlett/Hannan-Thomson variance
+    of the correlation's slope): ``var = int (2 pi f)^2 (S_xx S_yy - |S_xy|^2) df /
+    (T R''(d)^2)``, with two-sided spectra from the correlations (Blackman-Tukey with a
+    triangular lag window centred on the peak), ``T`` the record length and ``R''`` the
+    curvature of the interpolated peak.
+    """
+    if corr.kind != "cross":
+        raise InputError("delay() needs a cross-correlation (sb.CrossCorrelation), not an autocorrelation.")
+    if np.ndim(corr.value) != 1:
+        raise InputError("delay() needs the correlation of one pair of channels.")
+    if "auto" not in corr.info:
+        raise InputError("This cross-correlation carries no autocorrelations; recompute it with this specbench.")
+    fs = corr.fs
+    m = corr.info["max_lag_samples"]
+    norm = corr.info.get("norm", 1.0) if corr.estimator.normalize else 1.0
+    r = np.asarray(corr.value, dtype=np.float64) * norm  # unnormalised, lags -m..m
+    lags = np.arange(-m, m + 1)
+    i0 = int(np.argmax(np.abs(r)))
+    sign = 1.0 if r[i0] >= 0 else -1.0
+    if i0 in (0, 2 * m):
+        raise InputError(
+            f"The cross-correlation peaks at the edge of its lag range (lag {lags[i0] / fs:g} s = max_lag): "
+            "the true peak may lie beyond it. Choose a larger max_lag."
+        )
+    lo_i, hi_i = max(0, i0 - half_width), min(2 * m + 1, i0 + half_width + 1)
+    kk = lags[lo_i:hi_i].astype(np.float64)
+    rr = sign * r[lo_i:hi_i]
+    k0 = float(lags[i0])
+    opt = optimize.minimize_scalar(lambda t: -_sinc_sum(t, kk, rr), bounds=(k0 - 1.0, k0 + 1.0),
+                                   method="bounded", options=dict(xatol=1e-7))
+    d_samples = float(opt.x)
+    curv = _sinc_sum(d_samples, kk, rr, deriv=2) * fs * fs  # unit^2 / s^2 (R'' in seconds)
+    # spectra from the correlations (two-sided, unit^2/Hz), triangular lag window
+    raa, rbb = (np.asarray(v, dtype=np.float64) for v in corr.info["auto"])
+    mw = int(min(m - abs(lags[i0]), raa.size - 1))
+    nfft = scipy.fft.next_fast_len(8 * max(mw, 8))
+    tri = 1.0 - np.arange(mw + 1) / (mw + 1)
+
+    def bt_even(rv):
+        seq = np.zeros(nfft)
+        seq[: mw + 1] = rv[: mw + 1] * tri
+        seq[nfft - mw:] = (rv[1: mw + 1] * tri[1:])[::-1]
+        return scipy.fft.rfft(seq).real / fs
+
+    sxx, syy = bt_even(raa), bt_even(rbb)
+    seq = np.zeros(nfft)
+    centre = i0
+    for j in range(-mw, mw + 1):
+        seq[j % nfft] = r[centre + j] * tri[abs(j)]
+    sxy = np.abs(scipy.fft.rfft(seq)) / fs
+    f = scipy.fft.rfftfreq(nfft, 1.0 / fs)
+    wgt = np.full(f.size, 2.0)  # two-sided integral over a one-sided grid
+    wgt[0] = 1.0
+    if nfft % 2 == 0:
+        wgt[-1] = 1.0
+    df = fs / nfft
+    num = float(np.sum(wgt * (2 * np.pi * f) ** 2 * np.clip(sxx * syy - sxy**2, 0.0, None)) * df)
+    pairs = corr.info.get("pairs_at_peak")
+    t_len = (pairs if pairs is not None else corr.n) / fs
+    if curv >= 0 or not math.isfinite(curv):
+        raise InputError("The cross-correlation has no peak to fit (flat or noisy around its maximum). "
+                         "Choose a larger max_lag or a longer record.")
+    var = num / (t_len * curv * curv)
+    value = d_samples / fs
+    stderr = math.sqrt(var)
+    z = _z(corr.confidence)
+    return Delay(
+        value=value, stderr=stderr, lower=value - z * stderr, upper=value + z * stderr,
+        confidence=corr.confidence,
+        method="cross-correlation peak, sinc-interpolated; stderr: Knapp & Carter 1976 peak variance",
+        channels=corr.channels,
+        info=dict(fs=fs, peak_sample=int(lags[i0]), peak_value=float(r[i0] / norm), sign=sign),
+    )
