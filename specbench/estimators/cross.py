@@ -24,6 +24,7 @@ References
 from __future__ import annotations
 
 import math
+import warnings
 from dataclasses import dataclass, field
 from typing import Any, ClassVar
 
@@ -31,13 +32,13 @@ import numpy as np
 import scipy.fft
 from scipy import optimize, stats
 
-from .._errors import InputError
+from .._errors import InputError, SpecbenchWarning
 from ._base import Estimator
 from ._common import Timer, confidence_field, detrend_field, nfft_field, nonfinite_error, too_short, window_field
 from ._cross_engine import cross_segment_products
 from ._dof import welch_dof
 from ._engine import as_2d, clean_segments
-from ._input import as_samples
+from ._input import _is_signal_like, as_samples
 from ._params import Interval, Options, param
 from ._results import density_unit, power_unit
 from .windows import get_window, window_info, window_label
@@ -91,7 +92,7 @@ def select_channels(owner: str, x: Any, y: Any, fs: Any, pair: Any, *, allow_mat
     if y is not None:
         if pair is not None:
             raise InputError(f"{owner}: give either y= or pair=, not both.")
-        sy = as_samples(y, fs if fs is not None else sx.fs)
+        sy = as_samples(y, fs if fs is not None or _is_signal_like(y) else sx.fs)
         if sy.fs != sx.fs:
             raise InputError(
                 f"x is sampled at {sx.fs:g} Hz and y at {sy.fs:g} Hz; {owner} needs simultaneous "
@@ -317,7 +318,8 @@ class CrossSpectrumResult:
         return pd.DataFrame(cols, index=pd.Index(self.freq, name="freq_hz"))
 
     def __repr__(self) -> str:
-        what = f"{len(self.channels)} channels (all pairs)" if self.is_matrix else f"{self.channels[0]} -> {self.channels[1]}"
+        what = (f"{len(self.channels)} channels (all pairs)" if self.is_matrix
+                else f"{self.channels[0]} -> {self.channels[1]}")
         return (f"<CrossSpectrumResult {what}: {self.freq.size} bins to {self.freq[-1]:g} Hz, "
                 f"resolution {self.resolution:.4g} Hz, K = {self.segments} segments, "
                 f"n_d = {self.independent_segments:.4g} independent; {self.estimator!r}>")
@@ -583,6 +585,15 @@ def _phase_delay(res: CrossSpectrumResult, band: Any) -> Delay:
     if kmax > nfft * up // 2:
         kmax -= nfft * up
     tau0 = kmax / (res.fs * up)  # irfft of conj(X) Y peaks at +d when y lags x by d
+    misaligned = abs(tau0) * res.fs / res.info["nperseg"]
+    if misaligned > 0.03:
+        warnings.warn(
+            f"The delay ({tau0 * res.fs:.3g} samples) is {misaligned:.1%} of the segment length "
+            f"({res.info['nperseg']}): segments of the two channels overlap only partly, which biases "
+            "the phase slope towards zero delay (Carter 1987). Use a segment_length of at least "
+            f"{int(np.ceil(abs(tau0) * res.fs / 0.03))} samples, or the cross-correlation delay.",
+            SpecbenchWarning, stacklevel=3,
+        )
     f = freq[idx]
     resid = np.angle(g[idx] * np.exp(2j * np.pi * f * tau0))
     resid = np.unwrap(resid)
@@ -608,7 +619,7 @@ def _phase_delay(res: CrossSpectrumResult, band: Any) -> Delay:
         method="weighted least-squares phase slope over coherent bins (Bendat & Piersol 2010 errors)",
         channels=res.channels, band=(f1, f2),
         info=dict(fs=res.fs, bins_used=int(idx.size), bins_in_band=int(inband.sum()),
-                  intercept_rad=float(coef[0]), coarse_delay=float(tau0)),
+                  intercept_rad=float(coef[0]), coarse_delay=float(tau0), misalignment=misaligned),
     )
 
 
