@@ -8,7 +8,17 @@ __all__ = ["SpecbenchError", "InputError", "SettingsError", "SpecbenchWarning"]
 
 
 class SpecbenchError(Exception):
-    """Base class of every error raised on purpose by specbench."""
+    """Base class of every error raised on purpose by specbench.
+
+    ``field`` names the estimator field (or data-selection key) the error is about, and
+    ``owner`` the estimator class name, when there is one (else None): the widget marks
+    the control from them, never from the message text.
+    """
+
+    def __init__(self, *args: object, field: str | None = None, owner: str | None = None) -> None:
+        super().__init__(*args)
+        self.field = field
+        self.owner = owner
 
 
 class InputError(SpecbenchError, ValueError):

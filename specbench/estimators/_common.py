@@ -130,7 +130,7 @@ def restore_shape(arr: np.ndarray, lead: tuple[int, ...]) -> np.ndarray:
 
 def too_short(owner: str, what: str, need: int, n: int, fix: str) -> InputError:
     return InputError(
-        f"The {what} of {owner} is {need} samples, but the data has only {n}. {fix}"
+        f"The {what} of {owner} is {need} samples, but the data has only {n}. {fix}", field=what, owner=owner
     )
 
 

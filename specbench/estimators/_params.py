@@ -38,7 +38,7 @@ def settings_error(owner: str, name: str, expected: str, value: Any, fix: str = 
     msg = f"The '{name}' parameter of {owner} must be {expected}. Got {value!r} instead."
     if fix:
         msg += f" {fix}"
-    return SettingsError(msg)
+    return SettingsError(msg, field=name, owner=owner)
 
 
 class Constraint:

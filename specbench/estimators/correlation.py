@@ -46,12 +46,12 @@ def _max_lag_samples(owner: str, max_lag: float | None, fs: float, n: int) -> in
     if m < 1:
         raise InputError(
             f"The max_lag of {owner} is {max_lag:g} s, less than one sample at fs = {fs:g} Hz. "
-            f"Choose max_lag >= {1 / fs:g} s."
+            f"Choose max_lag >= {1 / fs:g} s.", field="max_lag", owner=owner,
         )
     if m > n - 1:
         raise InputError(
             f"The max_lag of {owner} is {max_lag:g} s ({m} samples), but the data has only "
-            f"{n} samples ({n / fs:g} s). Choose max_lag <= {(n - 1) / fs:g} s."
+            f"{n} samples ({n / fs:g} s). Choose max_lag <= {(n - 1) / fs:g} s.", field="max_lag", owner=owner,
         )
     return m
 

@@ -358,7 +358,7 @@ class Periodogram(SpectralEstimator):
             raise InputError(
                 f"The nfft of Periodogram is {nfft}, shorter than the {n} samples of the data; "
                 "the periodogram never truncates data. Leave nfft=None, or choose nfft >= "
-                f"{n}, or analyse a shorter span."
+                f"{n}, or analyse a shorter span.", field="nfft", owner="Periodogram",
             )
         return _averaged_periodogram(
             self, x, fs, onesided, nperseg=n, step=n, nfft=nfft, average="mean", mask=None
@@ -485,13 +485,14 @@ class Multitaper(SpectralEstimator):
         if self.bandwidth >= seg / 2:
             raise InputError(
                 f"The bandwidth (NW) of Multitaper is {self.bandwidth:g}, but tapers of "
-                f"{seg} samples allow NW < {seg / 2:g}. Choose a smaller bandwidth or a longer segment."
+                f"{seg} samples allow NW < {seg / 2:g}. Choose a smaller bandwidth or a longer segment.",
+                field="bandwidth", owner="Multitaper",
             )
         nfft = self.nfft or seg
         if nfft < seg:
             raise InputError(
                 f"The nfft of Multitaper is {nfft}, shorter than the tapered length {seg}. "
-                f"Leave nfft=None or choose nfft >= {seg}."
+                f"Leave nfft=None or choose nfft >= {seg}.", field="nfft", owner="Multitaper",
             )
         k = self.n_tapers
         key = (seg, float(self.bandwidth), k)
