@@ -5,9 +5,10 @@
 >>> spec = sb.Welch(segment_length=4096)(sig)            # doctest: +SKIP
 """
 
-from ._errors import InputError, SettingsError, SpecbenchError, SpecbenchWarning
+from ._errors import Cancelled, InputError, SettingsError, SpecbenchError, SpecbenchWarning
 from .estimators import (
     Autocorrelation,
+    CancelToken,
     Correlation,
     Correlogram,
     Covariance,
@@ -29,6 +30,8 @@ __version__ = "0.1.0"
 
 __all__ = [
     "Autocorrelation",
+    "Cancelled",
+    "CancelToken",
     "Correlation",
     "Correlogram",
     "Covariance",

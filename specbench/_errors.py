@@ -4,7 +4,7 @@ Messages follow one template: what is wrong (the value given), the limit it brea
 and how to fix it.  The widget shows the message verbatim in its status line.
 """
 
-__all__ = ["SpecbenchError", "InputError", "SettingsError", "SpecbenchWarning"]
+__all__ = ["SpecbenchError", "InputError", "SettingsError", "SpecbenchWarning", "Cancelled"]
 
 
 class SpecbenchError(Exception):
@@ -27,6 +27,11 @@ class InputError(SpecbenchError, ValueError):
 
 class SettingsError(SpecbenchError, ValueError):
     """An estimator field or a settings file is invalid."""
+
+
+class Cancelled(SpecbenchError):
+    """A computation was stopped on request (raised by a ``progress`` callback, or by
+    :meth:`specbench.estimators.CancelToken.cancel`); no partial result is returned."""
 
 
 class SpecbenchWarning(UserWarning):

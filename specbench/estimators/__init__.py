@@ -1,6 +1,7 @@
 """Estimation core: windows, spectral and correlation estimators, bands (numpy/scipy only)."""
 
 from ._base import Estimator, estimator_classes, estimator_from_dict
+from ._engine import CancelToken
 from ._params import ParamSpec
 from ._results import Correlation, Spectrum
 from .correlation import Autocorrelation, CrossCorrelation
@@ -11,6 +12,7 @@ from .windows import WINDOWS, WindowInfo, get_window, window_info
 
 __all__ = [
     "Autocorrelation",
+    "CancelToken",
     "Correlation",
     "Correlogram",
     "Covariance",

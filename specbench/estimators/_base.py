@@ -3,6 +3,8 @@
 from __future__ import annotations
 
 import dataclasses
+import functools
+import inspect
 from typing import Any, ClassVar
 
 from .._errors import SettingsError
@@ -32,6 +34,9 @@ class Estimator:
 
     def __init_subclass__(cls, abstract: bool = False, **kwargs: Any) -> None:
         super().__init_subclass__(**kwargs)
+        call = cls.__dict__.get("__call__")
+        if call is not None and not getattr(call, "_tracked", False):
+            cls.__call__ = _tracked_call(call)
         if abstract:
             return
         if "kind" not in cls.__dict__ or not cls.__dict__["kind"]:
@@ -56,6 +61,19 @@ class Estimator:
 
     def _fail(self, name: str, expected: str, fix: str = "") -> None:
         raise settings_error(type(self).__name__, name, expected, getattr(self, name), fix)
+
+    # ---------------------------------------------------------------- cost
+    def expected_seconds(self, n_samples: int, n_channels: int = 1, dtype: Any = "float64") -> float:
+        """Expected wall time in seconds of ``self(x)`` on ``n_channels x n_samples`` data.
+
+        A model of the estimator's work (FFT sizes and counts, passes over memory, taper
+        construction) times the speed of this machine, measured once per process on a
+        small FFT (a few ms).  Checked against measured times by
+        ``tests/benchmarks/bench_cost.py`` (target: within a factor 2).
+        """
+        from ._cost import expected_seconds
+
+        return expected_seconds(self, int(n_samples), int(n_channels), dtype)
 
     # ---------------------------------------------------------------- metadata
     @classmethod
@@ -102,6 +120,39 @@ class Estimator:
             "schema": SCHEMA_VERSION,
             "fields": {name: _jsonable(getattr(self, name)) for name in self.params()},
         }
+
+
+def _tracked_call(call: Any) -> Any:
+    """Give an estimator's ``__call__`` the keyword arguments ``progress=`` and ``cancel=``."""
+
+    @functools.wraps(call)
+    def __call__(self: Estimator, *args: Any, progress: Any = None, cancel: Any = None, **kwargs: Any) -> Any:
+        if progress is None and cancel is None:
+            return call(self, *args, **kwargs)
+        from ._engine import tracking
+
+        with tracking(progress, cancel):
+            return call(self, *args, **kwargs)
+
+    try:
+        sig = inspect.signature(call)
+        extra = [inspect.Parameter(n, inspect.Parameter.KEYWORD_ONLY, default=None) for n in ("progress", "cancel")]
+        params = [p for p in sig.parameters.values() if p.kind != inspect.Parameter.VAR_KEYWORD]
+        __call__.__signature__ = sig.replace(parameters=params + extra)  # type: ignore[attr-defined]
+    except (TypeError, ValueError):  # pragma: no cover - exotic callables
+        pass
+    __call__._tracked = True  # type: ignore[attr-defined]
+    __call__.__doc__ = (call.__doc__ or "").rstrip() + """
+
+        progress : callable, optional
+            ``progress(fraction)`` is called from the calling thread after each block of
+            work, with the fraction done (nondecreasing; 1.0 when the result is ready).
+            It may raise :class:`specbench.Cancelled` to stop the computation.
+        cancel : specbench.CancelToken, optional
+            ``cancel.cancel()`` (from any thread) stops the computation at the next block:
+            :class:`specbench.Cancelled` is raised and no partial result is returned.
+        """
+    return __call__
 
 
 def _jsonable(v: Any) -> Any:

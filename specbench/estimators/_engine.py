@@ -21,6 +21,8 @@ import numpy as np
 import scipy.fft
 from numpy.lib.stride_tricks import sliding_window_view
 
+from .._errors import Cancelled, SettingsError
+
 __all__ = [
     "segment_power",
     "lagged_products",
@@ -31,6 +33,10 @@ __all__ = [
     "block_segments",
     "ordered_map",
     "reporting_progress",
+    "tracking",
+    "expect_passes",
+    "checkpoint",
+    "CancelToken",
 ]
 
 _POOL: ThreadPoolExecutor | None = None
@@ -67,13 +73,114 @@ def reporting_progress(callback: Callable[[int, int], None]):
         _PROGRESS.reset(token)
 
 
+class CancelToken:
+    """Ask a running estimate to stop: ``token.cancel()`` from any thread.
+
+    Pass it as ``est(x, cancel=token)``.  The engines look at it between blocks of work
+    (and between the passes and stages of an estimate), and then raise
+    :class:`specbench.Cancelled`: the worker threads finish the block in hand and take no
+    more, and no partial result is returned.  A token can be reused after :meth:`reset`.
+    """
+
+    def __init__(self) -> None:
+        self._event = threading.Event()
+
+    def cancel(self) -> None:
+        self._event.set()
+
+    def reset(self) -> None:
+        self._event.clear()
+
+    @property
+    def cancelled(self) -> bool:
+        return self._event.is_set()
+
+    def __repr__(self) -> str:
+        return f"CancelToken(cancelled={self.cancelled})"
+
+
+class _Tracker:
+    """Turns the engine's per-pass block counts into one fraction of the whole estimate."""
+
+    def __init__(self, callback: Callable[[float], None] | None, token: CancelToken | None) -> None:
+        if callback is not None and not callable(callback):
+            raise SettingsError(
+                f"progress must be a callable taking the fraction done (a float in [0, 1]); got "
+                f"{callback!r}. Pass for example progress=print, or leave it out."
+            )
+        if token is not None and not isinstance(token, CancelToken):
+            raise SettingsError(
+                f"cancel must be a specbench.CancelToken; got {token!r}. Create one with "
+                "token = sb.CancelToken() and call token.cancel() to stop."
+            )
+        self.callback, self.token = callback, token
+        self.passes = 1
+        self.completed = 0
+        self.last = 0.0
+
+    def check(self) -> None:
+        if self.token is not None and self.token.cancelled:
+            raise Cancelled("The computation was cancelled (CancelToken.cancel()); no result was produced.")
+
+    def report(self, fraction: float) -> None:
+        self.last = max(self.last, min(1.0, fraction))
+        self.check()
+        if self.callback is not None:
+            self.callback(self.last)
+        self.check()
+
+    def block(self, done: int, total: int) -> None:
+        passes = max(self.passes, self.completed + 1)
+        frac = (self.completed + done / max(1, total)) / passes
+        if done >= total:
+            self.completed += 1
+        self.report(min(frac, 0.999))  # 1.0 only once the result is ready
+
+
+_TRACKER: contextvars.ContextVar[_Tracker | None] = contextvars.ContextVar("specbench_tracker", default=None)
+
+
+@contextlib.contextmanager
+def tracking(progress: Callable[[float], None] | None = None, cancel: CancelToken | None = None):
+    """Within the block, estimates report ``progress(fraction)`` (from the calling thread,
+    after each block of work; nondecreasing, 1.0 once the result is ready) and stop with
+    :class:`specbench.Cancelled` when ``cancel`` is set or when ``progress`` raises it."""
+    tracker = _Tracker(progress, cancel)
+    token = _TRACKER.set(tracker)
+    try:
+        tracker.check()
+        yield tracker
+        tracker.report(1.0)
+    finally:
+        _TRACKER.reset(token)
+
+
+def expect_passes(passes: int) -> None:
+    """An estimate announces how many streamed passes it will make (for the fraction)."""
+    tracker = _TRACKER.get()
+    if tracker is not None:
+        tracker.passes = max(1, int(passes))
+        tracker.completed = 0
+
+
+def checkpoint() -> None:
+    """Between stages: give the tracker a chance to stop the computation."""
+    tracker = _TRACKER.get()
+    if tracker is not None:
+        tracker.report(tracker.last)
+
+
 def ordered_map(func: Callable, items: Sequence) -> Iterator:
     """``func(i) for i in items``, in order, on the worker threads.
 
     At most ``2 * threads`` items are in flight, so results that are consumed as they come
-    (summed, say) take bounded memory however many items there are.
+    (summed, say) take bounded memory however many items there are.  If the consumer
+    stops (an exception, a cancellation from the progress callback), the items not yet
+    started are dropped and the ones in flight are waited for, so no worker thread is
+    left writing when the error reaches the caller.
     """
     report = _PROGRESS.get()
+    tracker = _TRACKER.get()
     total = len(items)
     done = 0
 
@@ -82,19 +189,30 @@ def ordered_map(func: Callable, items: Sequence) -> Iterator:
         done += 1
         if report is not None:
             report(done, total)
+        if tracker is not None:
+            tracker.block(done, total)
         return result
 
+    if tracker is not None:
+        tracker.check()
     if total <= 1 or _THREADS == 1:
         yield from (tick(func(i)) for i in items)
         return
     pool = _pool()
     window: deque = deque()
-    for item in items:
-        window.append(pool.submit(func, item))
-        if len(window) >= 2 * _THREADS:
+    try:
+        for item in items:
+            window.append(pool.submit(func, item))
+            if len(window) >= 2 * _THREADS:
+                yield tick(window.popleft().result())
+        while window:
             yield tick(window.popleft().result())
-    while window:
-        yield tick(window.popleft().result())
+    finally:
+        for f in window:
+            f.cancel()
+        for f in window:
+            if not f.cancelled():
+                f.exception()  # wait for it; its error, if any, is superseded
 
 
 def block_segments(nperseg: int) -> int:
@@ -200,7 +318,7 @@ def segment_power(
     linear = _LinearDetrend(nperseg, np.dtype(work)) if detrend == "linear" else None
     fft = scipy.fft.fft if twosided else scipy.fft.rfft
     nfreq = nfft if twosided else nfft // 2 + 1
-    per_block = block_segments(nperseg)
+    per_block = min(block_segments(nperseg), max(1, nseg))
     starts = list(range(0, nseg, per_block))
     out = np.empty((c, nseg, nfreq), dtype=np.float64) if keep_each else None
 
@@ -219,13 +337,18 @@ def segment_power(
             np.multiply(seg, w, out=seg)
         else:
             np.multiply(blk, w, out=seg, casting="unsafe")
-        spec = fft(seg, n=nfft, axis=-1, workers=1)
-        p = spec.real * spec.real
-        p += spec.imag * spec.imag
-        part = None if keep_each else p.sum(axis=1, dtype=np.float64)
+        spec = fft(seg, n=nfft, axis=-1, workers=1, overwrite_x=True)
         if keep_each:
+            p = spec.real * spec.real
+            p += spec.imag * spec.imag
             out[:, s0:s1, :] = p
-        return part
+            return None
+        # |X|^2 summed over the block's segments in one pass over the spectra, without
+        # temporaries: the squares of the real and imaginary parts (interleaved in the
+        # float view) are summed over segments, then added pairwise
+        flat = spec.view(spec.real.dtype)
+        sq = np.einsum("csj,csj->cj", flat, flat)
+        return np.add(sq[:, 0::2], sq[:, 1::2], dtype=np.float64)
 
     total = np.zeros((c, nfreq), dtype=np.float64)
     for part in ordered_map(run, starts):

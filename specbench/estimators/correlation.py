@@ -21,7 +21,7 @@ from scipy import stats
 from .._errors import InputError
 from ._base import Estimator
 from ._common import Timer, confidence_field, detrend_field, nonfinite_error, restore_shape
-from ._engine import as_2d, lagged_products, trend_coefficients
+from ._engine import as_2d, expect_passes, lagged_products, trend_coefficients
 from ._input import as_samples
 from ._params import Boolean, Interval, Optional, Options, param
 from ._results import Correlation, power_unit
@@ -233,6 +233,7 @@ class CrossCorrelation(Estimator):
             raise InputError("CrossCorrelation supports real data only.")
         n = a.shape[-1]
         m = _max_lag_samples("CrossCorrelation", self.max_lag, sx.fs, n)
+        expect_passes(4 if self.normalize or self.band == "bartlett" else 2)
         with Timer() as t:
             pos = detrended_copyless_products(a, b, m, self.detrend)[0]
             neg = detrended_copyless_products(b, a, m, self.detrend)[0]

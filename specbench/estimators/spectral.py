@@ -46,7 +46,17 @@ from ._common import (
     window_field,
 )
 from ._dof import band_factors, edge_bins, median_bias, median_dof_factor, welch_dof
-from ._engine import clean_segments, detrended_variance, segment_power
+from ._dpss import HalfTapers, half_tapers
+from ._engine import (
+    _scratch,
+    checkpoint,
+    clean_segments,
+    detrended_variance,
+    expect_passes,
+    ordered_map,
+    segment_power,
+    trend_coefficients,
+)
 from ._params import Boolean, Interval, Optional, Options, param
 from ._results import Spectrum
 from .correlation import detrended_copyless_products
@@ -368,42 +378,157 @@ class Periodogram(SpectralEstimator):
 # ---------------------------------------------------------------- Multitaper
 
 
-#: whole-record tapers longer than this get a cost warning (PERFORMANCE.md: 1.4 s at 1e6)
-WHOLE_RECORD_TAPER_LIMIT = 1 << 20
-_TAPER_KEYS: set = set()
+_TAPERS_BUILT: set = set()
+
+#: tapers longer than this are computed by :mod:`._dpss` (exact eigenvectors in O(N)
+#: per taper) instead of ``scipy.signal.windows.dpss`` (2.6 s at 1e6 samples here)
+FAST_DPSS_MIN = 1 << 17
+
+
+@functools.lru_cache(maxsize=4)
+def _long_tapers(n: int, nw: float, k: int) -> HalfTapers:
+    return half_tapers(n, nw, k)
 
 
 @functools.lru_cache(maxsize=8)
 def _tapers(n: int, nw: float, k: int) -> tuple[np.ndarray, np.ndarray]:
     """Unit-energy DPSS tapers (k, n) and their concentration ratios, cached."""
-    h, ratios = dpss(n, nw, Kmax=k, sym=True, norm=2, return_ratios=True)
+    if n > FAST_DPSS_MIN:
+        t = _long_tapers(n, nw, k)
+        h, ratios = t.full(), np.array(t.ratios)
+    else:
+        h, ratios = dpss(n, nw, Kmax=k, sym=True, norm=2, return_ratios=True)
     h = np.atleast_2d(h)
     h.setflags(write=False)
     return h, np.atleast_1d(ratios)
 
 
+def _whole_record_eigenspectra(x: np.ndarray, n: int, nw: float, k: int, nfft: int, detrend: str,
+                               twosided: bool) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """``|FFT(taper_j * detrend(x_c))|**2`` for every channel and taper of one whole record.
+
+    One item of work per (channel, taper), run two at a time on the engine threads; each
+    writes its own row of the result, so the bits do not depend on the thread count.
+    Returns ``(sk (C, K, F), concentrations (K,), taper sums (K,))``.
+    """
+    c = x.shape[0]
+    if n > FAST_DPSS_MIN:
+        tapers = _long_tapers(n, float(nw), k)
+        lam, sums = np.array(tapers.ratios), tapers.sums()
+        apply = tapers.apply
+    else:
+        h, lam = _tapers(n, float(nw), k)
+        sums = h.sum(axis=1)
+
+        def apply(j, src, out):
+            return np.multiply(src, h[j], out=out, casting="unsafe")
+
+    checkpoint()
+    trend = trend_coefficients(x, detrend) if not np.iscomplexobj(x) else None
+    if np.iscomplexobj(x) and detrend != "none":
+        mean = np.array([np.mean(x[i], dtype=np.complex128) for i in range(c)])
+    single = x.dtype in (np.float32, np.complex64, np.int16, np.int8, np.uint8)
+    work = np.dtype(np.float32 if single else np.float64)
+    if np.iscomplexobj(x):
+        work = np.dtype(np.complex64 if single else np.complex128)
+    fft = scipy.fft.fft if twosided else scipy.fft.rfft
+    nfreq = nfft if twosided else nfft // 2 + 1
+    sk = np.empty((c, k, nfreq))
+
+    def run(item):
+        ch, j = item
+        buf = _scratch("taper-record", (n,), work)
+        src = x[ch]
+        if trend is not None:
+            c0, c1 = trend[0][ch], trend[1][ch]
+            np.subtract(src, c0, out=buf, casting="unsafe")
+            if c1 != 0.0:
+                buf -= (c1 * np.arange(n)).astype(work, copy=False)
+        elif detrend != "none":
+            np.subtract(src, mean[ch], out=buf, casting="unsafe")
+        else:
+            np.copyto(buf, src, casting="unsafe")
+        apply(j, buf, buf)
+        spec = fft(buf, n=nfft, workers=1)
+        dst = sk[ch, j]
+        np.multiply(spec.real, spec.real, out=dst)
+        im = spec.imag
+        np.multiply(im, im, out=im)
+        dst += im
+        return None
+
+    for _ in ordered_map(run, [(ch, j) for ch in range(c) for j in range(k)]):
+        pass
+    return sk, lam, sums
+
+
 def _adaptive(sk: np.ndarray, lam: np.ndarray, sigma2: np.ndarray, fs: float):
-    """Thomson's adaptive weighting, iterated to convergence.
+    """Thomson's adaptive weighting, iterated to convergence at every frequency.
 
     ``sk``: (C, K, F) two-sided eigenspectra; ``lam``: (K,) concentrations; ``sigma2``:
     (C,) data variance.  Weights ``b_k = sqrt(l_k) S / (l_k S + (1 - l_k) sigma^2 / fs)``,
     estimate ``sum b_k^2 S_k / sum b_k^2`` (Percival & Walden 1993 eqs. (368a), (369a);
     Thomson 1982), dof ``2 (sum b_k^2 l_k)^2 / sum b_k^4 l_k^2`` (P&W eq. (370a)); from
-    memory, checked by Monte Carlo coverage.
+    memory, checked by Monte Carlo coverage.  Each frequency iterates until its own
+    relative change is below 1e-10 (at most 200 times); the frequencies are done in fixed
+    chunks on the engine threads.
     """
-    lam = lam[None, :, None]
-    broad = ((1 - lam) * sigma2[:, None, None] / fs)
-    s = sk[:, :2].mean(axis=1, keepdims=True)
-    for _ in range(200):
-        b2 = lam * s**2 / (lam * s + broad) ** 2
-        new = (b2 * sk).sum(axis=1, keepdims=True) / b2.sum(axis=1, keepdims=True)
-        done = np.max(np.abs(new - s) / np.maximum(new, np.finfo(float).tiny)) < 1e-10
-        s = new
-        if done:
-            break
-    b2 = lam * s**2 / (lam * s + broad) ** 2
-    dof = 2 * (b2 * lam).sum(axis=1) ** 2 / (b2**2 * lam**2).sum(axis=1)
-    return s[:, 0], dof
+    c, k, f = sk.shape
+    value = np.empty((c, f))
+    dof = np.empty((c, f))
+    lam_col = lam[:, None]
+    chunk = 1 << 15
+    items = [(ch, f0) for ch in range(c) for f0 in range(0, f, chunk)]
+
+    def run(item):
+        ch, f0 = item
+        f1 = min(f, f0 + chunk)
+        spec = sk[ch, :, f0:f1]
+        broad = (1 - lam_col) * (sigma2[ch] / fs)
+        s = spec[:2].mean(axis=0)
+        active = np.arange(f1 - f0)
+        sub, cur = spec, s.copy()
+        for _ in range(200):
+            b2 = lam_col * cur**2 / (lam_col * cur + broad) ** 2
+            new = (b2 * sub).sum(axis=0) / b2.sum(axis=0)
+            moving = np.abs(new - cur) >= 1e-10 * np.maximum(new, np.finfo(float).tiny)
+            s[active] = new
+            if not moving.any():
+                break
+            active, sub, cur = active[moving], sub[:, moving], new[moving]
+        b2 = lam_col * s**2 / (lam_col * s + broad) ** 2
+        value[ch, f0:f1] = s
+        dof[ch, f0:f1] = 2 * (b2 * lam_col).sum(axis=0) ** 2 / (b2**2 * lam_col**2).sum(axis=0)
+
+    for _ in ordered_map(run, items):
+        pass
+    return value, dof
+
+
+def _multitaper_cost(est: Any, n: int, c: int, itemsize: int) -> dict:
+    """Work model of :class:`Multitaper` for :meth:`~Estimator.expected_seconds`."""
+    from ._cost import _fft, _segment_model, _threads
+
+    seg = est.segment_length or n
+    seg = min(seg, n)
+    nfft = max(est.nfft or seg, seg)
+    k = est.n_tapers
+    nseg = max(1, n // seg)
+    fixed = 2e-3
+    if (seg, float(est.bandwidth), k) not in _TAPERS_BUILT:
+        fixed += 0.25 if seg > FAST_DPSS_MIN else 0.0  # base tapers
+        fixed += (2.6e-6 * seg * k / 7) if seg <= FAST_DPSS_MIN else 0.0
+    taper_passes = (60.0 * seg * k / 2) if seg > FAST_DPSS_MIN else 0.0
+    nfreq = nfft // 2 + 1
+    if nseg == 1:
+        fft = _fft(c * k, nfft) / _threads()
+        passes = c * k * (n * 4 + nfreq * 6) / _threads() + 4.0 * c * n
+    else:
+        m = _segment_model(n, c, seg, seg, nfft, itemsize, passes=k)
+        fft, passes = m["fft"], m["passes"]
+    adaptive = (c * k * nfreq * 60.0 / _threads()) if est.adaptive and k > 1 else 0.0
+    bands = 4.0 * c * nfreq
+    return dict(fft=fft, passes=passes + taper_passes + adaptive + bands, fixed=fixed)
 
 
 @dataclass(frozen=True, kw_only=True, repr=False)
@@ -496,27 +621,29 @@ class Multitaper(SpectralEstimator):
             )
         k = self.n_tapers
         key = (seg, float(self.bandwidth), k)
-        if self.segment_length is None and seg > WHOLE_RECORD_TAPER_LIMIT and key not in _TAPER_KEYS:
-            warnings.warn(
-                f"Multitaper tapers the whole record of {seg:,} samples: building {k} DPSS tapers of that "
-                f"length takes about {1.4 * k / 7 * seg / 1e6:.0f} s and {k * seg * 8 / 2**20:,.0f} MB "
-                "(once; they are cached). Pass segment_length= (e.g. 65536) to taper segments and average them.",
-                SpecbenchWarning,
-                stacklevel=3,
-            )
-        h, lam = _tapers(*key)
-        _TAPER_KEYS.add(key)
         nseg = n // seg
         used = nseg * seg
-        sk = []
-        for taper in h:
-            p, _ = segment_power(
-                x, window=taper, step=seg, nfft=nfft, detrend=self.detrend, twosided=not onesided
+        if nseg == 1 and not np.iscomplexobj(x):
+            expect_passes(2 if self.adaptive and k > 1 else 1)
+            sk, lam, sums = _whole_record_eigenspectra(
+                x[:, :used], seg, self.bandwidth, k, nfft, self.detrend, not onesided
             )
-            sk.append(p / nseg)
-        sk = np.stack(sk, axis=1) / fs  # (C, K, F) two-sided density of each taper
+            sk /= fs
+        else:
+            h, lam = _tapers(*key)
+            sums = h.sum(axis=1)
+            expect_passes(k + (1 if self.adaptive and k > 1 else 0))
+            sk = np.empty((x.shape[0], k, nfft if not onesided else nfft // 2 + 1))
+            for j, taper in enumerate(h):
+                p, _ = segment_power(
+                    x, window=taper, step=seg, nfft=nfft, detrend=self.detrend, twosided=not onesided
+                )
+                np.multiply(p, 1.0 / (nseg * fs), out=sk[:, j])
+        _TAPERS_BUILT.add(key)
+        # (C, K, F) two-sided density of each taper
         if not np.all(np.isfinite(sk)):
             raise nonfinite_error(x, "Multitaper", used)
+        checkpoint()
         variance = detrended_variance(x[:, :used], self.detrend)
         real = not np.iscomplexobj(x)
         if self.adaptive and k > 1:
@@ -526,7 +653,6 @@ class Multitaper(SpectralEstimator):
             value = sk.mean(axis=1)
             dof = np.full(value.shape[-1], 2.0 * k * nseg)
         # resolution: ENBW of the average spectral window of equally weighted tapers
-        sums = h.sum(axis=1)
         enbw_hz = fs * k / float(np.dot(sums, sums)) if np.dot(sums, sums) > 0 else math.nan
         if self.scaling == "spectrum":
             value = value * enbw_hz
