@@ -64,6 +64,9 @@ from .freeze import (  # noqa: E402
     read_settings,
     save_settings,
 )
+from .measure import MeasurementError  # noqa: E402
+
+__all__ += ["MeasurementError"]
 
 __all__ += ["Signal", "demo", "demos", "load", "Workbench", "Settings", "load_settings", "read_settings",
             "save_settings"]

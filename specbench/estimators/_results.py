@@ -144,6 +144,49 @@ class Spectrum:
         with np.errstate(divide="ignore", invalid="ignore"):
             return total / self.variance
 
+    # ---- measurements with uncertainty (thin wrappers over specbench.measure)
+    def band_power(self, f1: float, f2: float):
+        """Power over ``[f1, f2]`` Hz with an interval: :func:`specbench.measure.band_power`."""
+        from ..measure import band_power
+
+        return band_power(self, f1, f2)
+
+    def band_rms(self, f1: float, f2: float):
+        """RMS over ``[f1, f2]`` Hz with an interval: :func:`specbench.measure.band_rms`."""
+        from ..measure import band_rms
+
+        return band_rms(self, f1, f2)
+
+    def noise_floor(self, f1: float | None = None, f2: float | None = None):
+        """Robust floor of the density with an interval: :func:`specbench.measure.noise_floor`."""
+        from ..measure import noise_floor
+
+        return noise_floor(self, f1, f2)
+
+    def tones(self, max_count: int = 10, **options):
+        """Tones above the local floor: :func:`specbench.measure.tones`."""
+        from ..measure import tones
+
+        return tones(self, max_count=max_count, **options)
+
+    def octave_bands(self, fraction: int = 3, f_min: float | None = None, f_max: float | None = None):
+        """IEC 61260-1 fractional-octave band powers: :func:`specbench.measure.octave_bands`."""
+        from ..measure import octave_bands
+
+        return octave_bands(self, fraction, f_min=f_min, f_max=f_max)
+
+    def integrate(self, order: int = 1) -> Spectrum:
+        """Density of the integrated quantity, ``S (2 pi f)^-2`` per order: :func:`specbench.measure.integrate`."""
+        from ..measure import integrate
+
+        return integrate(self, order)
+
+    def differentiate(self, order: int = 1) -> Spectrum:
+        """Density of the differentiated quantity, ``S (2 pi f)^2`` per order."""
+        from ..measure import differentiate
+
+        return differentiate(self, order)
+
     def channel(self, key: int | str) -> Spectrum:
         """The spectrum of one channel (by index or name)."""
         if self.value.ndim == 1:
