@@ -474,7 +474,7 @@ def _header(meta: dict) -> list[str]:
     for key, value in meta.items():
         if key in ("specbench_version", "created", "estimator_dict"):
             continue
-        out.append(f"{key}: {value}")
+        out.append(one_line(f"{key}: {value}"))  # a path or name with a line break stays on its line
     return out
 
 

@@ -22,6 +22,7 @@ from typing import Any
 
 from .._errors import SettingsError
 from ._describe import (
+    LINE_BREAKS,
     call,
     figures_of_merit,
     now_iso,
@@ -249,7 +250,11 @@ class _Name(str):
 
 
 def _check_names(code: str, data_name: str) -> None:
-    """The cell must compile, and must not assign the user's data variable."""
+    """The cell must compile, must hold no line break other than ``\\n`` (user strings reach it
+    only through ``repr`` or :func:`one_line`), and must not assign the user's data variable."""
+    odd = sorted({c for c in code if c in LINE_BREAKS and c != "\n"})
+    if odd:  # pragma: no cover - a generator bug: a user string reached the cell unescaped
+        raise RuntimeError(f"the frozen cell holds the line break(s) {odd!r}; a user string was not escaped")
     tree = ast.parse(code, "<frozen>")
     assigned = {
         node.id for node in ast.walk(tree) if isinstance(node, ast.Name) and isinstance(node.ctx, ast.Store)

@@ -19,7 +19,23 @@ __all__ = [
     "selection_text",
     "figures_of_merit",
     "wrap_comment",
+    "one_line",
+    "LINE_BREAKS",
 ]
+
+#: characters that end a line for Python's tokenizer, for editors or for ``str.splitlines``:
+#: none of them may reach a generated comment (a comment must not end before its text does)
+LINE_BREAKS = "\n\r\x0b\x0c\x1c\x1d\x1e\x85\u2028\u2029"
+
+
+def one_line(text: Any) -> str:
+    """``text`` as one line of printable characters: line breaks and other unprintable characters
+    are written as their escapes (``\\n``, ``\\u2028``), so a user's string (a path, a channel name,
+    a unit) can sit in a comment or a file header without ending it."""
+    text = str(text)
+    if text.isprintable():
+        return text
+    return "".join(c if c.isprintable() else c.encode("unicode_escape").decode("ascii") for c in text)
 
 
 def specbench_version() -> str:
@@ -55,6 +71,9 @@ def py(value: Any) -> str:
 
 
 def call(func: str, *args: Any, **kwargs: Any) -> str:
+    for k in kwargs:
+        if not (isinstance(k, str) and k.isidentifier()):
+            raise ValueError(f"{one_line(repr(k))} is not a keyword name; it cannot appear in generated code.")
     parts = [py(a) for a in args] + [f"{k}={py(v)}" for k, v in kwargs.items()]
     return f"{func}({', '.join(parts)})"
 
@@ -155,8 +174,11 @@ def figures_of_merit(spec: Any) -> list[str]:
 
 
 def wrap_comment(text: str, width: int = 88, indent: str = "#   ") -> list[str]:
-    """``# text`` wrapped to ``width`` columns; continuation lines start with ``indent``."""
-    words = text.split(" ")
+    """``# text`` wrapped to ``width`` columns; continuation lines start with ``indent``.
+
+    Line breaks and other unprintable characters in ``text`` are escaped (:func:`one_line`):
+    the comment cannot end early and let the rest of a user's string run as code."""
+    words = one_line(text).split(" ")
     lines: list[str] = []
     cur = "# "
     for w in words:

@@ -21,7 +21,7 @@ import numpy as np
 
 from ..estimators import Autocorrelation, Correlogram, Multitaper, Periodogram, Welch
 from ._codegen import container_converter, input_guard
-from ._describe import origin_call, py, wrap_comment
+from ._describe import one_line, origin_call, py, wrap_comment
 from ._state import FreezeState
 
 __all__ = ["scipy_body", "numpy_selection"]
@@ -103,7 +103,7 @@ def _data_lines(state: FreezeState, var: str) -> list[str]:
         index.append(f"{cols[0]}:{cols[1]}")
         what.append(f"{state.span[0]:.9g} s to {state.span[1]:.9g} s")
     sel = f"[{', '.join(index)}]" if index else ""
-    comment = ", ".join(what + ["shape (channels, samples)"])
+    comment = one_line(", ".join(what + ["shape (channels, samples)"]))
     line = f"{var} = np.atleast_2d({name}){sel}  # {comment}"
     if len(line) > 88:
         out.append(f"# {comment}")
