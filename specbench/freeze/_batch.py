@@ -39,7 +39,7 @@ import numpy as np
 
 from .._errors import SpecbenchError
 from ..estimators._engine import reporting_progress
-from ._describe import now_iso, specbench_version
+from ._describe import now_iso, one_line, specbench_version
 from ._settings import Settings, read_settings
 from ._state import Selection, apply_steps
 
