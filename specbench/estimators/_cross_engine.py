@@ -78,7 +78,6 @@ def cross_segment_products(
     index = None if segments is None else np.asarray(segments, dtype=np.intp)
     nseg = n_all if index is None else int(index.size)
     work = work_dtype(xs)
-    cdt = np.dtype(np.complex64 if work == np.float32 else np.complex128)
     w = window.astype(work, copy=False)
     views = [sliding_window_view(xi, nperseg)[::step] for xi in xs]
     q = _linear_basis(nperseg, work) if detrend == "linear" else None
@@ -104,11 +103,18 @@ def cross_segment_products(
             else:
                 np.multiply(blk, w, out=out, casting="unsafe")
         spec = scipy.fft.rfft(seg, n=nfft, axis=-1, workers=1)  # (C, s, F), one FFT per channel
+        # sums over segments (numpy reductions: BLAS calls from the worker threads would
+        # fight over BLAS's own threads)
+        flat = spec.view(work)  # (C, s, 2F): real and imaginary parts interleaved
         part = np.empty((iu[0].size, nfreq), dtype=np.complex128)
-        conj = np.conj(spec)
         for k, (a, b) in enumerate(zip(*iu)):
-            prod = conj[a] * spec[b] if a != b else (spec[a].real ** 2 + spec[a].imag ** 2).astype(cdt)
-            part[k] = prod.sum(axis=0, dtype=np.complex128)
+            if a == b:
+                sq = np.square(flat[a]).sum(axis=0, dtype=np.float64)
+                part[k] = sq[0::2] + sq[1::2]
+            else:
+                prod = np.conj(spec[a])
+                prod *= spec[b]
+                part[k] = prod.sum(axis=0, dtype=np.complex128)
         return part
 
     total = np.zeros((iu[0].size, nfreq), dtype=np.complex128)
