@@ -192,9 +192,12 @@ class CrossSpectrumResult:
     coherence_threshold : (nfreq,) level that an estimate of zero true coherence exceeds
         with probability ``1 - confidence`` (Carter 1987)
     phase, phase_lower, phase_upper : rad, of ``G_xy`` (y relative to x; a delay ``d`` gives
-        ``-2 pi f d``); band ``+- z sigma[phi]`` (Bendat & Piersol 2010 Table 9.6)
+        ``-2 pi f d``); band ``+- t eps`` with the normalised random error
+        ``eps = sqrt(1 - g^2) / (|g| sqrt(2 (n_d - 1)))`` (Bendat & Piersol 2010 Table 9.6) and
+        the Student t quantile with ``2 n_d - 2`` dof; ``+- pi`` (phase unknown) where the
+        coherence is below the threshold
     transfer, gain, gain_lower, gain_upper : ``H1 = G_xy / G_xx`` and ``|H1|`` with the band
-        ``|H1| exp(+- z eps)`` (normalised random error ``eps``, Bendat & Piersol 2010)
+        ``|H1| exp(+- t eps)``; below the threshold ``[0, sqrt(g2_upper G_yy / G_xx)]``
     transfer_h2 : ``H2 = G_yy / G_yx``
     segments : K, segments averaged
     independent_segments : n_d, the overlap-corrected number of independent segments
@@ -363,9 +366,11 @@ class CrossSpectrum(Estimator):
       (Carter 1987): zero true coherence exceeds it with probability ``alpha``;
     - coherence band: Fisher z-transform of ``|gamma|`` with bias ``1/(2(n_d - 1))`` and
       variance ``1/(2(n_d - 1))`` (Enochson & Goodman 1965; Bendat & Piersol 2010 sec. 9.2);
-    - phase band ``phi +- z sigma``, gain band ``|H1| exp(+- z sigma)`` with
-      ``sigma = sqrt(1 - gamma^2) / (|gamma| sqrt(2 n_d))`` (Bendat & Piersol 2010,
-      Table 9.6, normalised random errors).
+    - phase band ``phi +- t eps``, gain band ``|H1| exp(+- t eps)`` with the normalised
+      random error ``eps = sqrt(1 - gamma^2) / (|gamma| sqrt(2 (n_d - 1)))`` (Bendat &
+      Piersol 2010, Table 9.6) and the Student t quantile with ``2 n_d - 2`` dof; where the
+      coherence is below the threshold the phase band is ``+- pi`` and the gain band
+      ``[0, sqrt(coherence_upper G_yy / G_xx)]`` (measured coverage in the tests).
 
     Call it as ``xs(signal, pair=("a", "b"))`` (names or indices), ``xs(x, y, fs=...)``,
     or ``xs(signal)`` for all pairs of a multichannel signal (``res.pair(a, b)``).  A

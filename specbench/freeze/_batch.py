@@ -591,3 +591,5 @@ def run(args: argparse.Namespace) -> int:
         return 2
     progress.say("wrote " + ", ".join(f"{p} ({n})" for n, p in summary["paths"].items()))
     return 0
+
+from . import _cross_form  # noqa: E402,F401  (registers the CrossSpectrum and Covariance writers)

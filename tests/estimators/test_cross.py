@@ -291,3 +291,24 @@ def test_result_table_and_repr():
     assert 1 - 0.05 ** (1 / 7) == pytest.approx(0.3482, abs=1e-4)
     nd = r.independent_segments
     assert r.coherence_threshold[5] == pytest.approx(1 - 0.05 ** (1 / (nd - 1)))
+
+
+def test_streams_without_copying_the_record():
+    # 2 channels x 2e6 float64 samples = 32 MB; the engine's extra memory is a few blocks.
+    import tracemalloc
+
+    rng = np.random.default_rng(15)
+    x = rng.standard_normal((2, 2_000_000))
+    est = sb.CrossSpectrum(segment_length=4096)
+    est(x[0], x[1], fs=FS)  # warm the per-thread buffers
+    tracemalloc.start()
+    est(x[0], x[1], fs=FS)
+    _, peak = tracemalloc.get_traced_memory()
+    tracemalloc.stop()
+    assert peak < 12 * 2**20, peak / 2**20
+    mm32 = x.astype(np.float32)
+    tracemalloc.start()
+    est(mm32, fs=FS)
+    _, peak32 = tracemalloc.get_traced_memory()
+    tracemalloc.stop()
+    assert peak32 < 12 * 2**20, peak32 / 2**20
