@@ -89,8 +89,9 @@ class Spectrum:
 
         ``"density"`` as computed; ``"asd"`` the square root (``u/sqrt(Hz)``); ``"db"``
         ``10 log10`` of the density (dB re 1 u^2/Hz); ``"power"`` the power spectrum
-        (density times the resolution ``resolution`` Hz, ``u^2``), which reads ``A^2/2``
-        for a sine of amplitude ``A``.  The band transforms with the estimate: it is the
+        (density times the resolution ``resolution`` Hz, ``u^2``; for Blackman-Tukey the
+        line factor ``info["line_bandwidth_hz"]``), which reads ``A^2/2`` for a sine of
+        amplitude ``A`` on a bin.  The band transforms with the estimate: it is the
         same interval.
         """
         if kind not in VIEWS:
@@ -98,8 +99,9 @@ class Spectrum:
         v, lo, hi = self.value, self.lower, self.upper
         if index is not None:
             v, lo, hi = v[..., index], lo[..., index], hi[..., index]
+        line = self.info.get("line_bandwidth_hz", self.resolution)
         if self.scaling == "spectrum" and kind != "power":
-            v, lo, hi = (a / self.resolution for a in (v, lo, hi))
+            v, lo, hi = (a / line for a in (v, lo, hi))
         if kind == "density":
             return v, lo, hi, _per_channel(self.data_unit, density_unit)
         if kind == "asd":
@@ -112,8 +114,7 @@ class Spectrum:
             return conv[0], conv[1], conv[2], unit
         if self.scaling == "spectrum":
             return v, lo, hi, _per_channel(self.data_unit, power_unit)
-        r = self.resolution
-        return v * r, lo * r, hi * r, _per_channel(self.data_unit, power_unit)
+        return v * line, lo * line, hi * line, _per_channel(self.data_unit, power_unit)
 
     def with_confidence(self, confidence: float) -> Spectrum:
         """The same estimate with its band at another confidence level.

@@ -462,14 +462,16 @@ def _whole_record_eigenspectra(x: np.ndarray, n: int, nw: float, k: int, nfft: i
     return sk, lam, sums
 
 
-def _adaptive(sk: np.ndarray, lam: np.ndarray, sigma2: np.ndarray, fs: float):
+def _adaptive(sk: np.ndarray, lam: np.ndarray, sigma2: np.ndarray, fs: float,
+              near: np.ndarray | None = None, u: np.ndarray | None = None):
     """Thomson's adaptive weighting, iterated to convergence at every frequency.
 
     ``sk``: (C, K, F) two-sided eigenspectra; ``lam``: (K,) concentrations; ``sigma2``:
-    (C,) data variance.  Weights ``b_k = sqrt(l_k) S / (l_k S + (1 - l_k) sigma^2 / fs)``,
-    estimate ``sum b_k^2 S_k / sum b_k^2`` (Percival & Walden 1993 eqs. (368a), (369a);
-    Thomson 1982), dof ``2 (sum b_k^2 l_k)^2 / sum b_k^4 l_k^2`` (P&W eq. (370a)); from
-    memory, checked by Monte Carlo coverage.  Each frequency iterates until its own
+    (C,) data variance.  With ``b_k = S / (l_k S + (1 - l_k) sigma^2 / fs)`` the weights
+    are ``d_k^2 = l_k b_k^2`` and the estimate ``sum d_k^2 S_k / sum d_k^2`` (Percival &
+    Walden 1993 eqs. (368a), (369a); Thomson 1982); the dof are those of the weights as
+    used, :func:`_taper_dof` (``near``, ``u``: the mirror-image overlap near DC and
+    Nyquist, :func:`_mirror_overlap`).  Each frequency iterates until its own
     relative change is below 1e-10 (at most 200 times); the frequencies are done in fixed
     chunks on the engine threads.
     """
@@ -498,11 +500,74 @@ def _adaptive(sk: np.ndarray, lam: np.ndarray, sigma2: np.ndarray, fs: float):
             active, sub, cur = active[moving], sub[:, moving], new[moving]
         b2 = lam_col * s**2 / (lam_col * s + broad) ** 2
         value[ch, f0:f1] = s
-        dof[ch, f0:f1] = 2 * (b2 * lam_col).sum(axis=0) ** 2 / (b2**2 * lam_col**2).sum(axis=0)
+        a = b2 / b2.sum(axis=0)  # the weights as used
+        denom = np.sum(a * a, axis=0)
+        if near is not None and near.size:
+            inside = (near >= f0) & (near < f1)
+            if inside.any():
+                idx = near[inside] - f0
+                an = a[:, idx]
+                denom[idx] += np.einsum("jf,jlf,lf->f", an, u[:, :, inside], an)
+        dof[ch, f0:f1] = 2.0 / denom
 
     for _ in ordered_map(run, items):
         pass
     return value, dof
+
+
+#: taper length on which the mirror-image overlap of long tapers is evaluated
+MIRROR_PROXY = 1 << 14
+
+
+@functools.lru_cache(maxsize=8)
+def _mirror_overlap(seg: int, nw: float, k: int, nfft: int, nfreq: int) -> tuple[np.ndarray, np.ndarray]:
+    """Bins within W of DC or Nyquist and ``|U_jl(2f)|^2`` there, shape (K, K, bins).
+
+    For real data the eigencoefficient ``J_k(f)`` is correlated with ``J_k(-f)``: for a
+    locally white spectrum ``E[J_j(f) J_l(f)] = S U_jl(2f)`` with
+    ``U_jl(g) = sum_t h_j,t h_l,t e^{-i 2 pi g t}`` (the tapers' spectral windows
+    overlapping their mirror images; Percival & Walden 1993, ch. 7, the tapered estimate
+    at f = 0 and f = fs/2).  ``U_jl(2f)`` is concentrated in ``|f| < W``, so only those
+    bins (and their mirror at fs/2) are listed; elsewhere it is of the order of the
+    leakage ``1 - lambda`` and neglected.
+    """
+    d = (2 * np.arange(nfreq)) % nfft
+    d = np.minimum(d, nfft - d)
+    near = np.nonzero(d < 2 * nw * nfft / seg)[0]
+    u = np.empty((k, k, near.size))
+    if seg <= FAST_DPSS_MIN:
+        h, _ = _tapers(seg, nw, k)
+        for j in range(k):
+            for m in range(j, k):
+                u[j, m] = u[m, j] = np.abs(scipy.fft.rfft(h[j] * h[m], n=nfft)[d[near]]) ** 2
+    else:
+        # long tapers: |U_jl| depends on f / W only (the tapers converge to prolate
+        # functions), so it is evaluated on tapers of MIRROR_PROXY samples at the same
+        # f / W (direct sums); the difference from the exact value is below 1e-4 here
+        h, _ = _tapers(MIRROR_PROXY, nw, k)
+        t = np.arange(MIRROR_PROXY)
+        for i, di in enumerate(d[near]):
+            e = np.exp(-2j * np.pi * (di / nfft) * (seg / MIRROR_PROXY) * t)
+            u[:, :, i] = np.abs((h * e) @ h.T) ** 2
+    near.setflags(write=False)
+    u.setflags(write=False)
+    return near, u
+
+
+def _taper_dof(k: int, nfreq: int, near: np.ndarray, u: np.ndarray | None) -> np.ndarray:
+    """Variance-matching dof of ``sum_k a_k S_k``; here equal weights ``a_k = 1/K``.
+
+    ``Var = S^2 (sum_k a_k^2 + sum_jl a_j a_l |U_jl(2f)|^2)`` for a locally white Gaussian
+    process and orthonormal tapers (the second term only at the bins ``near`` DC and
+    Nyquist of real data, see :func:`_mirror_overlap`), so ``nu = 2 / (sum a^2 + a'|U|^2 a)``:
+    ``2K`` away from the ends, ``K`` at f = 0 and f = fs/2.  Adaptive weights ``a_k = d_k^2 /
+    sum d_l^2`` use the same expression in :func:`_adaptive` (Percival & Walden 1993
+    eq. (370a), ``2 (sum d_k^2)^2 / sum d_k^4``, with the weights as used; Thomson 1982).
+    """
+    nu = np.full(nfreq, 2.0 * k)
+    if near.size:
+        nu[near] = 2.0 * k * k / (k + u.sum(axis=(0, 1)))
+    return nu
 
 
 def _multitaper_cost(est: Any, n: int, c: int, itemsize: int) -> dict:
@@ -538,7 +603,11 @@ class Multitaper(SpectralEstimator):
     ``tapers`` orthogonal tapers of time-half-bandwidth ``bandwidth`` (NW) each give an
     eigenspectrum; their average has ``2K`` degrees of freedom (equal weights) or the
     frequency-dependent dof of Thomson's adaptive weights.  The spectral window is about
-    ``2W = 2 NW fs / n`` wide.  ``segment_length`` optionally applies the estimate to
+    ``2W = 2 NW fs / n`` wide.  For real data the dof fall from ``2K`` to ``K`` within
+    ``W`` of DC and Nyquist, where each taper's spectral window overlaps its mirror image
+    (Percival & Walden 1993, ch. 7; the variance of the estimate there is derived in
+    :func:`_taper_dof`); adaptive weights get the dof of the weights actually used,
+    ``2 (sum d_k^2)^2 / sum d_k^4`` (P&W eq. (370a)).  ``segment_length`` optionally applies the estimate to
     non-overlapping segments and averages them (``2K`` per segment): tapers of a whole
     long record are costly to build (about 1.4 s at 1e6 samples), so long records are
     best cut into segments.
@@ -646,19 +715,21 @@ class Multitaper(SpectralEstimator):
         checkpoint()
         variance = detrended_variance(x[:, :used], self.detrend)
         real = not np.iscomplexobj(x)
+        nfreq = sk.shape[-1]
+        near, u = _mirror_overlap(seg, float(self.bandwidth), k, nfft, nfreq) if real else (np.arange(0), None)
+        # independent non-overlapping segments add their dof
         if self.adaptive and k > 1:
-            value, dof = _adaptive(sk, lam, variance, fs)
+            value, dof = _adaptive(sk, lam, variance, fs, near, u)
             dof = dof * nseg
         else:
             value = sk.mean(axis=1)
-            dof = np.full(value.shape[-1], 2.0 * k * nseg)
+            dof = _taper_dof(k, nfreq, near, u) * nseg
         # resolution: ENBW of the average spectral window of equally weighted tapers
         enbw_hz = fs * k / float(np.dot(sums, sums)) if np.dot(sums, sums) > 0 else math.nan
         if self.scaling == "spectrum":
             value = value * enbw_hz
         if onesided:
             _one_sided(value, nfft)
-        dof = _edge_dof(np.array(dof, dtype=float), nfft, onesided, real)
         return dict(
             value=value,
             dof=dof,
@@ -691,7 +762,12 @@ class Correlogram(SpectralEstimator):
     The biased autocovariance up to ``max_lag`` samples, tapered by a lag window
     ``w_k``, is Fourier transformed: ``S(f) = dt sum_{|k|<=M} w_k r_k e^{-i 2 pi f k dt}``.
     Degrees of freedom ``2 N / sum_k w_k^2`` and bandwidth ``B_W = fs / sum_k w_k^2``
-    (Percival & Walden 1993, section 6.7; from memory).  Parzen and Bartlett lag windows
+    (Percival & Walden 1993, section 6.7; from memory): ``resolution`` is ``B_W``.  The
+    power spectrum (``scaling="spectrum"``, ``view("power")``) divides the density by the
+    line factor ``dt sum_{|k|<=M} w_k (1 - |k|/N)`` instead: the height of the spectral
+    window at its centre, so that a sine of amplitude ``A`` on a bin reads ``A^2/2``
+    (the ``1 - |k|/N`` is the biased autocovariance's own taper; common practice).
+    ``info["line_bandwidth_hz"]`` holds ``fs / sum w_k (1 - |k|/N)``.  Parzen and Bartlett lag windows
     never give negative estimates; Hann and Hamming can, and a warning then says so.
     Real data only.
     """
@@ -755,8 +831,10 @@ class Correlogram(SpectralEstimator):
             _one_sided(value, nfft)
         sw2 = float(w[0] ** 2 + 2 * np.sum(w[1:] ** 2))
         bw = fs / sw2
+        # line factor: the spectral window's height at its centre (see the class docstring)
+        line_bw = fs / float(w[0] + 2 * np.dot(w[1:], 1 - np.arange(1, m + 1) / n))
         if self.scaling == "spectrum":
-            value = value * bw
+            value = value * line_bw
         neg = int(np.sum(value < 0))
         if neg:
             warnings.warn(
@@ -775,5 +853,5 @@ class Correlogram(SpectralEstimator):
             samples_used=n,
             variance=r[:, 0].copy(),
             limit=n,
-            info=dict(nfft=nfft, max_lag=m, lag_window=self.lag_window, sum_w2=sw2),
+            info=dict(nfft=nfft, max_lag=m, lag_window=self.lag_window, sum_w2=sw2, line_bandwidth_hz=line_bw),
         )

@@ -370,13 +370,31 @@ def _multitaper(est: Multitaper, var: str, onesided: bool, real: bool) -> list[s
             "        break",
             "b2 = lam * s**2 / (lam * s + broad) ** 2",
             "psd = s[:, 0]",
-            "dof = 2 * (b2 * lam).sum(axis=1) ** 2 / (b2**2 * lam**2).sum(axis=1) * nseg",
         ]
     else:
+        lines.append("psd = sk.mean(axis=1)")
+    lines += ["", "# Degrees of freedom of the weighted eigenspectra, per segment, times the segments"]
+    if real:
         lines += [
-            "psd = sk.mean(axis=1)",
-            "dof = np.full(psd.shape[-1], 2.0 * k * nseg)  # 2 per taper and segment",
+            "# (Percival & Walden 1993 eq. (370a), ch. 7): within W of DC and Nyquist each taper's",
+            "# spectral window overlaps its mirror image, |U_jl(2f)|^2 with U_jl the DFT of h_j h_l",
+            "d = (2 * np.arange(psd.shape[-1])) % nfft",
+            "d = np.minimum(d, nfft - d)",
+            "near = np.nonzero(d < 2 * nw * nfft / seg)[0]",
+            "u = np.array([[np.abs(scipy.fft.rfft(hj * hl, n=nfft)[d[near]]) ** 2 for hl in tapers] for hj in tapers])",
         ]
+    if adaptive:
+        lines += [
+            "a = b2 / b2.sum(axis=1, keepdims=True)  # the weights as used",
+            "denom = np.sum(a * a, axis=1)",
+        ]
+        if real:
+            lines.append('denom[:, near] += np.einsum("cjf,jlf,clf->cf", a[:, :, near], u, a[:, :, near])')
+        lines.append("dof = 2.0 / denom * nseg")
+    else:
+        lines.append("dof = np.full(psd.shape[-1], 2.0 * k * nseg)  # 2 per taper and segment")
+        if real:
+            lines.append("dof[near] = 2.0 * k * k / (k + u.sum(axis=(0, 1))) * nseg  # K at DC and Nyquist")
     if est.scaling == "spectrum":
         lines += [
             "sums = tapers.sum(axis=1)",
@@ -387,7 +405,7 @@ def _multitaper(est: Multitaper, var: str, onesided: bool, real: bool) -> list[s
         lines.append("freq = scipy.fft.rfftfreq(nfft, 1 / fs)")
     else:
         lines.append("freq = scipy.fft.fftfreq(nfft, 1 / fs)")
-    return lines + _edge_lines(onesided, real, None)
+    return lines
 
 
 # --------------------------------------------------------------------------- Blackman-Tukey
@@ -432,7 +450,12 @@ def _correlogram(est: Correlogram, var: str, onesided: bool, real: bool) -> list
         ]
     lines.append("sw2 = w[0] ** 2 + 2 * np.sum(w[1:] ** 2)")
     if est.scaling == "spectrum":
-        lines.append("psd = psd * (fs / sw2)  # power spectrum: density times the lag-window bandwidth (Hz)")
+        lines += [
+            "# power spectrum: a sine of amplitude A on a bin reads A^2/2; the line factor is the",
+            "# spectral window's height at its centre, with the biased estimate's 1 - k/n",
+            "line = w[0] + 2 * np.dot(w[1:], 1 - np.arange(1, m + 1) / n)",
+            "psd = psd * (fs / line)",
+        ]
     lines += [
         "",
         "# Degrees of freedom 2 N / sum_k w_k^2 (Percival & Walden 1993, sec. 6.7)",
