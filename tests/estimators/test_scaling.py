@@ -99,3 +99,29 @@ def test_whole_record_multitaper_of_a_long_record_needs_no_warning():
         warnings.simplefilter("error", sb.SpecbenchWarning)
         spec = sb.Multitaper(bandwidth=1.0)(x, fs=1.0)
     assert spec.segments == 1 and np.all(np.isfinite(spec.value))
+
+
+
+@pytest.mark.parametrize("lag_window", ["parzen", "bartlett", "hann", "hamming"])
+@pytest.mark.parametrize("max_lag", [64, 400])
+def test_correlogram_on_bin_sine_reads_a_squared_over_two(lag_window, max_lag):
+    # a sine of amplitude A has line power A^2/2 (common practice); the Blackman-Tukey
+    # estimate of it is (A^2/2) dt sum_k w_k (1 - |k|/N) at the line (Percival & Walden 1993,
+    # sec. 6.7: the spectral window of the lag window), so the power spectrum divides by
+    # that height, not by the bandwidth 1/(dt sum w_k^2) of the dof (which read 1.2-1.8 dB high)
+    amp, n = 3.0, 2**16
+    est = sb.Correlogram(max_lag=max_lag, lag_window=lag_window, scaling="spectrum")
+    nfft = 1 << int(np.ceil(np.log2(2 * max_lag)))
+    f0 = 40 * FS / nfft
+    x = amp * np.sin(2 * np.pi * f0 * np.arange(n) / FS)
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore", sb.SpecbenchWarning)  # hann/hamming dip below zero
+        spec = est(x, fs=FS)
+        dens = est.replace(scaling="density")(x, fs=FS)
+    k = int(np.argmax(spec.value))
+    assert spec.freq[k] == pytest.approx(f0)
+    # residual: the negative-frequency image's leakage, < 0.01 dB for these windows
+    assert spec.value[k] == pytest.approx(amp**2 / 2, rel=2e-3)
+    assert dens.view("power")[0][k] == pytest.approx(amp**2 / 2, rel=2e-3)
+    # and the views agree with each other: density of the spectrum-scaled estimate = density
+    np.testing.assert_allclose(spec.view("density")[0], dens.value, rtol=1e-12)
