@@ -73,6 +73,35 @@ _CSS = """
 .sb-workbench .sb-gap-medium { gap: 4px 12px; }
 .sb-workbench .sb-gap-wide { gap: 2px 18px; }
 .sb-workbench .bqplot .mainheading { font-size: 13px; }
+
+/* Layout: nothing inside the widget scrolls sideways, nothing is clipped (checked by
+   tests/browser/test_layout.py at 1000, 1400 and 1920 px). ipywidgets sets sizes as inline
+   styles, hence the !important. */
+.sb-workbench, .sb-workbench .jupyter-widgets { box-sizing: border-box; }
+.sb-workbench .widget-box { min-width: 0; }
+/* a plot, slider or block that fills its row (width 100%) does so without side margins */
+.sb-workbench .jupyter-widgets.bqplot, .sb-workbench .jupyter-widgets[style*="width: 100%"] {
+  margin-left: 0 !important; margin-right: 0 !important; max-width: 100%; }
+.sb-workbench .jupyter-widgets.bqplot { width: 100% !important; }
+/* the two views sit side by side while each gets 380 px, else one above the other */
+.sb-workbench .widget-vbox:has(> .sb-psd), .sb-workbench .widget-vbox:has(> .sb-acf) {
+  min-width: min(100%, 380px) !important; }
+/* the control columns: a grid of columns at least wide enough for a label and its longest option */
+.sb-workbench .sb-controls { display: grid !important; grid-template-columns: repeat(auto-fill, minmax(300px, 1fr));
+  align-items: start; }
+.sb-workbench .sb-controls > .widget-box { min-width: 0 !important; max-width: none !important; width: auto !important; }
+/* a control's row wraps (label above the editor) rather than running out of its column */
+.sb-workbench .sb-control > .widget-hbox, .sb-workbench .sb-control .widget-hbox { flex-wrap: wrap; row-gap: 2px; }
+.sb-workbench .widget-dropdown { width: auto !important; max-width: 100%; flex: 0 1 auto !important; }
+.sb-workbench .widget-dropdown > select { width: auto; min-width: 80px; max-width: 100%; flex: 0 1 auto; }
+.sb-workbench .widget-checkbox { width: auto !important; max-width: 100%; height: auto; }
+.sb-workbench .widget-checkbox > label, .sb-workbench .widget-checkbox label.widget-label-basic {
+  overflow: visible; white-space: normal; width: auto; line-height: 1.3; }
+.sb-workbench .widget-checkbox span { white-space: normal; }
+.sb-workbench .widget-toggle-buttons { flex-wrap: nowrap; }
+.sb-workbench .widget-toggle-buttons .widget-toggle-button { overflow: visible; }
+.sb-workbench .widget-label, .sb-workbench .widget-html-content { overflow-wrap: anywhere; }
+.sb-workbench pre { white-space: pre-wrap; overflow-wrap: anywhere; max-width: 100%; }
 </style>
 """
 

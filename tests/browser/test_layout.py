@@ -1,0 +1,119 @@
+"""The Workbench's layout at three window widths, with and without the file browser, in both themes.
+
+Checked on the DOM, as a person would see it: nothing inside the widget scrolls sideways
+(no element whose content is wider than its box while it may scroll or clips), no element
+reaches past the widget's right edge, and no drop-down is narrower than its longest option
+(text measured in the drop-down's own font). Screenshots of every case are saved to
+tests/browser/screenshots/ (git-ignored) and looked at by hand after a UI change.
+"""
+
+from __future__ import annotations
+
+import pytest
+from test_workbench_e2e import notebook, use_theme
+
+WIDTHS = (1000, 1400, 1920)
+
+BENCH_CELL = """\
+import specbench as sb
+
+bench = sb.Workbench(sb.demo("test-stand", duration=20))
+bench"""
+
+PIN_CELL = """\
+bench.pin()
+bench.estimator = bench.estimator.replace(window="blackmanharris", segment_length=2048)
+bench.pin()
+bench.estimator = bench.estimator.replace(window="blackmanharris", segment_length=8192)"""
+
+#: every element inside the widget whose content is wider than its box where that shows as
+#: a horizontal scrollbar or as clipped content; every element past the widget's right edge;
+#: every drop-down narrower than its longest option
+_OVERFLOW_JS = """() => {
+    const root = document.querySelector('.sb-workbench');
+    if (!root) return {error: 'no .sb-workbench'};
+    const edge = root.getBoundingClientRect().right;
+    const what = (el) => {
+        const cls = typeof el.className === 'string' ? el.className : (el.className.baseVal || '');
+        const text = (el.innerText || el.textContent || '').trim().slice(0, 40);
+        return `${el.tagName.toLowerCase()}.${cls.split(/\\s+/).filter(Boolean).slice(0, 3).join('.')} "${text}"`;
+    };
+    const out = [];
+    const all = [root, ...root.querySelectorAll('*')];
+    for (const el of all) {
+        if (el.closest('svg') && el.tagName.toLowerCase() !== 'svg') continue;  // inside a plot
+        const style = getComputedStyle(el);
+        if (style.display === 'none' || style.visibility === 'hidden') continue;
+        const r = el.getBoundingClientRect();
+        if (r.width === 0 && r.height === 0) continue;
+        if (r.right > edge + 1) out.push(`past the widget edge by ${Math.round(r.right - edge)} px: ${what(el)}`);
+        const ox = style.overflowX;
+        if (el.scrollWidth > el.clientWidth + 1 && el.clientWidth > 0 &&
+                (ox === 'auto' || ox === 'scroll' || ox === 'hidden' || ox === 'clip')) {
+            out.push(`content ${el.scrollWidth} px in a ${el.clientWidth} px box (overflow-x ${ox}): ${what(el)}`);
+        }
+    }
+    const canvas = document.createElement('canvas').getContext('2d');
+    for (const sel of root.querySelectorAll('select')) {
+        const style = getComputedStyle(sel);
+        if (style.display === 'none') continue;
+        canvas.font = `${style.fontWeight} ${style.fontSize} ${style.fontFamily}`;
+        const room = sel.clientWidth - parseFloat(style.paddingLeft) - parseFloat(style.paddingRight);
+        for (const opt of sel.options) {
+            const need = canvas.measureText(opt.text).width;
+            if (need > room + 0.5) {
+                out.push(`option "${opt.text}" needs ${Math.ceil(need)} px, the drop-down has ${Math.floor(room)}`);
+            }
+        }
+    }
+    return {problems: out, width: root.getBoundingClientRect().width};
+}"""
+
+
+def file_browser(lab, show: bool) -> None:
+    """Open or close JupyterLab's file browser (the left side bar), as a person would."""
+    tab = lab.page.locator('.jp-SideBar.jp-mod-left .lm-TabBar-tab[data-id="filebrowser"]')
+    is_open = lab.page.locator("#filebrowser").is_visible()
+    if is_open != show:
+        tab.click()
+    lab.page.wait_for_function(
+        f"() => !!(document.querySelector('#filebrowser')?.offsetParent) === {str(show).lower()}")
+    lab.page.wait_for_timeout(400)  # the notebook panel and the plots resize
+
+
+def problems(lab, settle_ms: int = 3000) -> list[str]:
+    """The layout problems once the page has settled (plots redraw a few frames after a resize)."""
+    waited, last = 0, None
+    while True:
+        result = lab.page.evaluate(_OVERFLOW_JS)
+        assert "error" not in result, result
+        if not result["problems"] or (result["problems"] == last and waited >= 1000) or waited >= settle_ms:
+            return result["problems"]
+        last = result["problems"]
+        lab.page.wait_for_timeout(250)
+        waited += 250
+
+
+@pytest.mark.parametrize("width", WIDTHS)
+def test_nothing_scrolls_sideways_or_is_clipped(lab, width):
+    lab.page.set_viewport_size({"width": width, "height": 1000})
+    lab.open(notebook(BENCH_CELL, PIN_CELL), f"layout{width}.ipynb")
+    lab.run_all()
+    assert lab.tracebacks() == []
+    lab.wait_for(".sb-workbench .sb-psd path.area")
+    seen = {}
+    try:
+        for theme in ("JupyterLab Light", "JupyterLab Dark"):
+            if theme != "JupyterLab Light":
+                use_theme(lab, theme)
+            for browser_open in (True, False):
+                file_browser(lab, browser_open)
+                where = f"{width}px, file browser {'open' if browser_open else 'closed'}, {theme}"
+                seen[where] = problems(lab)
+                tag = f"{'dark' if 'Dark' in theme else 'light'}-{'files' if browser_open else 'nofiles'}"
+                lab.screenshot(f"{tag}-views", show=".sb-workbench .sb-psd")
+                lab.screenshot(f"{tag}-controls", show=".sb-workbench .sb-controls")
+    finally:
+        use_theme(lab, "JupyterLab Light")  # the theme is a server setting, shared by the tests
+    bad = {k: v for k, v in seen.items() if v}
+    assert not bad, "\n".join(f"{k}:\n  " + "\n  ".join(v) for k, v in bad.items())
