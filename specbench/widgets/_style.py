@@ -1,37 +1,50 @@
 """Colours, line styles and the small style sheet of the workbench.
 
-Colours are mid-tone, chosen to read on both JupyterLab's light and dark themes; every
-other colour (text, borders, backgrounds) comes from JupyterLab's own CSS variables, so
-the widget follows the theme.  The palette is our own.
+The palette is our own, chosen by computation (see DEVELOPERS.md, "The look"): the current
+estimate is a deep petrol blue, the pins are warm and earthy hues with one violet, ordered
+so that pins drawn with the same dash pattern stay far apart in colour for people with
+protanopia, deuteranopia or tritanopia too (simulated with Machado, Oliveira & Fernandes
+2009), and every line has a contrast of at least 3:1 on both JupyterLab themes' backgrounds
+(WCAG 2.1 contrast ratio). ``tests/widgets/test_style.py`` checks both.  Every other colour
+(text, borders, backgrounds) comes from JupyterLab's own CSS variables, so the widget
+follows the theme.
 """
 
 from __future__ import annotations
 
 import ipywidgets as W
 
-__all__ = ["AXIS_LABEL", "BAND_OPACITY", "CURRENT", "PIN_STYLES", "gapped", "style_sheet"]
+__all__ = ["AXIS_LABEL", "BAND_OPACITY", "CURRENT", "PIN_BAND_OPACITY", "PIN_STYLES", "gapped", "style_sheet"]
 
-#: the current estimate (line and band)
-CURRENT = "#3a78c2"
+#: the current estimate (line and band): petrol blue
+CURRENT = "#1b7396"
 #: axis labels in the theme's text colour (bqplot's dark styling would make them orange)
 AXIS_LABEL = "var(--jp-ui-font-color1)"
-#: opacity of a shaded confidence band
-BAND_OPACITY = 0.3
+#: opacity of the current estimate's shaded confidence band
+BAND_OPACITY = 0.28
+#: opacity of a pinned estimate's band: lighter than the current one's
+PIN_BAND_OPACITY = 0.12
 
-#: (colour, dash) of pins 1..8: distinct in hue and in dash, so they also read in grey
+#: (colour, dash) of pins 1..8: violet, mustard, stone, amber, rosewood, moss, vermilion,
+#: umber, with the dash cycling dashed / dotted / dash-dotted, so neighbours differ in both
 PIN_STYLES: tuple[tuple[str, str], ...] = (
-    ("#d0671f", "dashed"),
-    ("#2f9a62", "dotted"),
-    ("#9457b8", "dash_dotted"),
-    ("#b88a12", "dashed"),
-    ("#cf4f74", "dotted"),
-    ("#1c93a8", "dash_dotted"),
-    ("#7d8a2a", "dashed"),
-    ("#8c7a6b", "dotted"),
+    ("#a43fe0", "dashed"),
+    ("#a08a10", "dotted"),
+    ("#858070", "dash_dotted"),
+    ("#de7410", "dashed"),
+    ("#b0506a", "dotted"),
+    ("#5f8a2c", "dash_dotted"),
+    ("#cc3a1a", "dashed"),
+    ("#8f6238", "dotted"),
 )
 
-#: SVG dash arrays matching bqplot's line styles (for the swatches in the pin table)
+#: SVG dash arrays matching bqplot's line styles (for the swatches in the pin table and the export)
 DASH_ARRAY = {"solid": "", "dashed": "6,3", "dotted": "2,3", "dash_dotted": "6,3,2,3"}
+
+#: the type of the figures (axis ticks and labels) and of the exported pictures
+FONT_FAMILY = "var(--jp-ui-font-family, system-ui, sans-serif)"
+TICK_FONT_PX = 11
+LABEL_FONT_PX = 12
 
 _CSS = """
 <style>
@@ -73,6 +86,9 @@ _CSS = """
 .sb-workbench .sb-gap-medium { gap: 4px 12px; }
 .sb-workbench .sb-gap-wide { gap: 2px 18px; }
 .sb-workbench .bqplot .mainheading { font-size: 13px; }
+.sb-workbench .bqplot text { font-family: var(--jp-ui-font-family, system-ui, sans-serif); }
+.sb-workbench .bqplot .axis .tick text { font-size: 11px; fill: var(--jp-ui-font-color1); }
+.sb-workbench .bqplot .axislabel { font-size: 12px; }
 
 /* Layout: nothing inside the widget scrolls sideways, nothing is clipped (checked by
    tests/browser/test_layout.py at 1000, 1400 and 1920 px). ipywidgets sets sizes as inline
@@ -82,14 +98,15 @@ _CSS = """
 /* a plot, slider or block that fills its row (width 100%) does so without side margins */
 .sb-workbench .jupyter-widgets.bqplot, .sb-workbench .jupyter-widgets[style*="width: 100%"] {
   margin-left: 0 !important; margin-right: 0 !important; max-width: 100%; }
-.sb-workbench .jupyter-widgets.bqplot { width: 100% !important; }
+.sb-workbench .jupyter-widgets.bqplot { width: 100% !important; min-width: 0 !important; }
 /* the two views sit side by side while each gets 380 px, else one above the other */
 .sb-workbench .widget-vbox:has(> .sb-psd), .sb-workbench .widget-vbox:has(> .sb-acf) {
   min-width: min(100%, 380px) !important; }
 /* the control columns: a grid of columns at least wide enough for a label and its longest option */
 .sb-workbench .sb-controls { display: grid !important; grid-template-columns: repeat(auto-fill, minmax(300px, 1fr));
   align-items: start; }
-.sb-workbench .sb-controls > .widget-box { min-width: 0 !important; max-width: none !important; width: auto !important; }
+.sb-workbench .sb-controls > .widget-box { min-width: 0 !important; max-width: none !important;
+  width: auto !important; }
 /* a control's row wraps (label above the editor) rather than running out of its column */
 .sb-workbench .sb-control > .widget-hbox, .sb-workbench .sb-control .widget-hbox { flex-wrap: wrap; row-gap: 2px; }
 .sb-workbench .widget-dropdown { width: auto !important; max-width: 100%; flex: 0 1 auto !important; }

@@ -1,10 +1,17 @@
 """The two result views: the PSD and the autocorrelation, each with its shaded band.
 
 A view owns one bqplot Figure with a band mark (``Lines`` with ``fill="between"`` on a
-two-row y), the current estimate's line, one line per pin, and two tools: *read*
-(an ``IndexSelector``: move over the plot, click to hold, and the readout gives the
-nearest bin of the full-resolution result) and *zoom* (``PanZoom``; a zoomed view is
+two-row y), the current estimate's line, one line and one lighter band per pin (the pin
+bands can be hidden with the view's "pin bands" toggle), and two tools: *read* (an
+``IndexSelector``: move over the plot, click to hold, and the readout gives the nearest
+bin of the full-resolution result) and *zoom* (``PanZoom`` on the x axis only: drag to
+pan, wheel to zoom; the y axis follows, fitted to the visible part, and a zoomed view is
 reduced again over its visible range, so zooming in shows every bin).
+
+The y range keeps a minimum span (:data:`MIN_DECADES` on a logarithmic axis,
+:data:`MIN_DB` in dB, a fraction of the largest magnitude on a linear axis), so that the
+ordinary scatter of a flat spectrum does not fill the plot as if it were structure, and
+the axes always carry at least three ticks.
 
 Marks never receive more than :data:`~specbench.widgets._reduce.MAX_POINTS` points: the
 traces are reduced by :func:`~specbench.widgets._reduce.reduce_sorted` (min/max per
@@ -14,6 +21,7 @@ column, peaks kept) and the band by its per-column envelope.
 from __future__ import annotations
 
 import contextlib
+import dataclasses
 import math
 import weakref
 from collections.abc import Iterable
@@ -25,9 +33,16 @@ import ipywidgets as W
 import numpy as np
 
 from ._reduce import reduce_sorted
-from ._style import AXIS_LABEL, BAND_OPACITY, CURRENT, gapped
+from ._style import AXIS_LABEL, BAND_OPACITY, CURRENT, PIN_BAND_OPACITY, gapped
 
 __all__ = ["Trace", "SpectrumView", "CorrelationView", "spectrum_trace", "correlation_trace", "fmt"]
+
+#: smallest y span of a logarithmic axis, in decades
+MIN_DECADES = 1.0
+#: smallest y span of a dB axis
+MIN_DB = 10.0
+#: smallest y span of a linear axis, as a fraction of the largest magnitude shown
+MIN_LINEAR_FRACTION = 0.2
 
 #: "Plot as" choices: (menu label, Spectrum.view kind)
 PLOT_AS = (("density", "density"), ("amplitude density", "asd"), ("dB", "db"), ("power", "power"))
@@ -87,6 +102,28 @@ def linear_ticks(lo: float, hi: float, target: int = 6) -> list[float]:
     return [round(first + i * step, 12) for i in range(max(0, n))]
 
 
+def y_limits(lo: float, hi: float, log: bool, min_linear: float = 0.0) -> tuple[float, float]:
+    """The y range shown for data in ``[lo, hi]``: a 4 % margin, and at least a minimum span.
+
+    On a logarithmic axis the span is at least :data:`MIN_DECADES` decades, centred on the
+    data (geometric middle); on a linear axis at least ``min_linear`` (and never zero).
+    """
+    if log:
+        if not (lo > 0 and hi > 0):
+            return lo, hi
+        span = math.log10(hi / lo)
+        if span < MIN_DECADES:
+            mid = 0.5 * (math.log10(lo) + math.log10(hi))
+            return 10 ** (mid - MIN_DECADES / 2), 10 ** (mid + MIN_DECADES / 2)
+        return lo / 10 ** (0.04 * span), hi * 10 ** (0.04 * span)
+    span = hi - lo
+    floor = min_linear if min_linear > 0 else max(abs(hi), abs(lo), 1.0) * 0.2
+    if span < floor:
+        mid = 0.5 * (lo + hi)
+        return mid - floor / 2, mid + floor / 2
+    return lo - 0.04 * span, hi + 0.04 * span
+
+
 @dataclass(frozen=True)
 class Trace:
     """A reduced trace ready for marks: x, the estimate and the band envelope."""
@@ -144,6 +181,15 @@ def spectrum_trace(spec, kind: str, xlog: bool, lo: float | None = None, hi: flo
                  unit, yr, int(spec.freq.size))
 
 
+def _visible(tr: Trace, lo: float, hi: float, log: bool) -> Trace:
+    """``tr`` with its y range taken over ``lo <= x <= hi`` only (the zoomed part)."""
+    inside = (tr.x >= lo) & (tr.x <= hi)
+    if not inside.any():
+        return tr
+    yr = _yrange([tr.y[inside], tr.lower[inside], tr.upper[inside]], log)
+    return dataclasses.replace(tr, yrange=yr if yr is not None else tr.yrange)
+
+
 def correlation_trace(corr, lo: float | None = None, hi: float | None = None) -> Trace:
     """The display trace of a one-channel Correlation (lag in seconds)."""
     red = reduce_sorted(corr.lag, corr.value, lo=lo, hi=hi)
@@ -177,6 +223,7 @@ class _TraceView:
         self.line = bq.Lines(x=np.zeros(0), y=np.zeros(0), scales={"x": self.xs, "y": self.ys},
                              colors=[CURRENT], stroke_width=1.6, enable_hover=False)
         self.pin_lines: list[bq.Lines] = []
+        self.pin_bands: list[bq.Lines] = []
         self.ax_x, self.ax_y = self._make_axes()
         self.figure = bq.Figure(
             marks=[self.band, self.line], axes=[self.ax_x, self.ax_y],
@@ -192,13 +239,19 @@ class _TraceView:
         self.tool = W.ToggleButtons(options=[("read", "read"), ("zoom", "zoom")], value="read",
                                     style={"button_width": "56px"}, tooltips=[
                                         "Click the plot for values; move to follow, click again to hold.",
-                                        "Drag to pan, wheel to zoom; 'whole' resets."])
+                                        "Drag sideways to pan, wheel to zoom the x axis; y follows the "
+                                        "visible part. 'whole' resets."])
+        self.pin_band_toggle = W.ToggleButton(value=True, description="pin bands",
+                                              tooltip="Show the confidence band of every pinned estimate.",
+                                              layout=W.Layout(width="auto"))
+        self.pin_band_toggle.add_class("sb-pin-band-toggle")
+        self.pin_band_toggle.observe(lambda ch: self.redraw(), names="value")
         self.reset = W.Button(description="whole", layout=W.Layout(width="60px", flex="0 0 60px"),
                               tooltip="Show the whole estimate again (undo zoom).")
         self.reset.on_click(lambda _: self.reset_zoom())
         self.tool.observe(lambda ch: self._set_tool(), names="value")
-        self.header = gapped(W.HBox([self.title, self.tool, self.reset], layout=W.Layout(align_items="center")),
-                             "small")
+        self.header = gapped(W.HBox([self.title, self.pin_band_toggle, self.tool, self.reset],
+                                    layout=W.Layout(align_items="center", flex_flow="row wrap")), "small")
         self.footer = gapped(W.HBox([self.readout], layout=W.Layout(flex_flow="row wrap", align_items="center")),
                              "medium")
         self._watch_scales()
@@ -227,7 +280,8 @@ class _TraceView:
     def _scale_moved(self, change) -> None:
         if self._guard:
             return
-        # the front end panned or zoomed: reduce again over the visible range
+        # the front end panned or zoomed the x axis: reduce again over the visible range and
+        # fit y to what is visible
         self.zoomed = True
         if change["owner"] is self.xs:
             self.redraw()
@@ -236,7 +290,7 @@ class _TraceView:
 
     def _set_tool(self) -> None:
         if self.tool.value == "zoom":
-            self.figure.interaction = bq.interacts.PanZoom(scales={"x": [self.xs], "y": [self.ys]})
+            self.figure.interaction = bq.interacts.PanZoom(scales={"x": [self.xs]})
         else:
             sel = bq.interacts.IndexSelector(scale=self.xs, marks=[], color="var(--jp-ui-font-color2)", line_width=1)
             sel.observe(self._read, names="selected")
@@ -259,6 +313,18 @@ class _TraceView:
 
     def reset_zoom(self) -> None:
         self.zoomed = False
+        self.redraw()
+
+    def zoom_x(self, lo: float, hi: float) -> None:
+        """Show ``lo <= x <= hi`` (what the zoom tool does), with y fitted to the visible part."""
+        if not hi > lo:
+            raise ValueError(f"zoom_x needs lo < hi; got {lo!r}, {hi!r}")
+        self._guard += 1
+        try:
+            _set_range(self.xs, float(lo), float(hi))
+        finally:
+            self._guard -= 1
+        self.zoomed = True
         self.redraw()
 
     # -- data --------------------------------------------------------------------------
@@ -304,9 +370,16 @@ class _TraceView:
         while len(self.pin_lines) < len(pins):
             self.pin_lines.append(bq.Lines(x=np.zeros(0), y=np.zeros(0), scales={"x": self.xs, "y": self.ys},
                                            stroke_width=1.3, enable_hover=False))
+        while len(self.pin_bands) < len(pins):
+            self.pin_bands.append(bq.Lines(
+                x=np.zeros(0), y=np.zeros((2, 0)), scales={"x": self.xs, "y": self.ys}, fill="between",
+                fill_opacities=[PIN_BAND_OPACITY], opacities=[0.0, 0.0], stroke_width=0.0,
+                enable_hover=False, apply_clip=True))
         used = self.pin_lines[: len(pins)]
-        marks = [self.band, *used, self.line]
-        holds = [self.figure, self.band, self.line, self.ax_y, self.xs, self.ys, *used]
+        bands = self.pin_bands[: len(pins)] if self.pin_band_toggle.value else []
+        # pin bands under the current band, the pin lines over it, the current line on top
+        marks = [*bands, self.band, *used, self.line]
+        holds = [self.figure, self.band, self.line, self.ax_y, self.xs, self.ys, *used, *bands]
         with contextlib.ExitStack() as stack:
             for w in holds:
                 stack.enter_context(w.hold_sync())
@@ -319,12 +392,20 @@ class _TraceView:
                 m.colors = [colour]
                 m.line_style = dash
                 m.scales = {"x": self.xs, "y": self.ys}
+            for m, (tr, colour, _dash) in zip(bands, pins):
+                m.x = tr.x
+                m.y = np.vstack([tr.upper, tr.lower])
+                m.colors = [colour, colour]
+                m.fill_colors = [colour]
+                m.scales = {"x": self.xs, "y": self.ys}
             if list(self.figure.marks) != marks:
                 self.figure.marks = marks
             self.ax_y.label = self._y_label(cur)
+            traces = [cur] + [p[0] for p in pins]
+            if self.zoomed and lo is not None and hi is not None:
+                traces = [_visible(t, lo, hi, self._ylog()) for t in traces]
+            self._fit_y(traces)  # zoomed: y fits the visible part
             if not self.zoomed:
-                traces = [cur] + [p[0] for p in pins]
-                self._fit_y(traces)
                 self._fit_x(traces)
             self._ticks()
 
@@ -367,17 +448,13 @@ class _TraceView:
                 self.ys.min = self.ys.max = None
                 return
             lo, hi = min(r[0] for r in ranges), max(r[1] for r in ranges)
-            if self._ylog():
-                if hi <= lo:
-                    lo, hi = lo / 10, hi * 10
-                span = math.log10(hi / lo)
-                lo, hi = lo / 10 ** (0.04 * span), hi * 10 ** (0.04 * span)
-            else:
-                pad = 0.04 * (hi - lo) if hi > lo else max(abs(hi), 1.0) * 0.1
-                lo, hi = lo - pad, hi + pad
+            lo, hi = y_limits(lo, hi, self._ylog(), self._min_linear_span(lo, hi))
             _set_range(self.ys, lo, hi)
         finally:
             self._guard -= 1
+
+    def _min_linear_span(self, lo: float, hi: float) -> float:
+        return MIN_LINEAR_FRACTION * max(abs(lo), abs(hi))
 
     def _y_label(self, tr: Trace) -> str:
         return tr.unit
@@ -458,6 +535,9 @@ class SpectrumView(_TraceView):
         self.redraw()
         if self._read_x is not None and self.result is not None:
             self.readout.value = self._readout_text(self._read_x)
+
+    def _min_linear_span(self, lo: float, hi: float) -> float:
+        return MIN_DB if self.kind == "db" else super()._min_linear_span(lo, hi)
 
     def _y_label(self, tr: Trace) -> str:
         name = {"density": "PSD", "asd": "ASD", "db": "PSD", "power": "Power"}[self.kind]

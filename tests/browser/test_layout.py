@@ -1,6 +1,7 @@
 """The Workbench's layout at three window widths, with and without the file browser, in both themes.
 
-Checked on the DOM, as a person would see it: nothing inside the widget scrolls sideways
+Checked on the DOM, as a person would see it after scrolling through the widget (bqplot
+redraws a figure at its new size when it comes into view): nothing inside the widget scrolls sideways
 (no element whose content is wider than its box while it may scroll or clips), no element
 reaches past the widget's right edge, and no drop-down is narrower than its longest option
 (text measured in the drop-down's own font). Screenshots of every case are saved to
@@ -70,6 +71,32 @@ _OVERFLOW_JS = """() => {
 }"""
 
 
+#: every plot whose drawing area is wider than its figure (a plot cut off at the right)
+_PLOTS_JS = """() => [...document.querySelectorAll('.sb-workbench .bqplot.figure')].map(f => {
+    const area = f.querySelector('.plotarea_background');
+    const fig = f.getBoundingClientRect();
+    const r = area ? area.getBoundingClientRect() : fig;
+    return {right: r.right - fig.right, width: Math.round(fig.width), area: Math.round(r.width)};
+}).filter(p => p.right > 1).map(p => `a plot area of ${p.area} px reaches past its ${p.width} px figure`)"""
+
+#: bqplot redraws a figure that comes into view after a 300 ms debounce
+REDRAW_MS = 700
+
+
+def look_at(lab, selector: str) -> None:
+    lab.page.locator(selector).first.scroll_into_view_if_needed()
+    lab.page.wait_for_timeout(REDRAW_MS)
+
+
+def plots_cut_off(lab) -> list[str]:
+    out = []
+    for selector in (".sb-workbench .sb-overview", ".sb-workbench .sb-psd", ".sb-workbench .sb-acf"):
+        if lab.page.locator(selector).count():
+            look_at(lab, selector)
+            out += lab.page.evaluate(_PLOTS_JS)
+    return sorted(set(out))
+
+
 def file_browser(lab, show: bool) -> None:
     """Open or close JupyterLab's file browser (the left side bar), as a person would."""
     tab = lab.page.locator('.jp-SideBar.jp-mod-left .lm-TabBar-tab[data-id="filebrowser"]')
@@ -109,10 +136,14 @@ def test_nothing_scrolls_sideways_or_is_clipped(lab, width):
             for browser_open in (True, False):
                 file_browser(lab, browser_open)
                 where = f"{width}px, file browser {'open' if browser_open else 'closed'}, {theme}"
-                seen[where] = problems(lab)
+                # as a person scrolls through the widget: each plot redraws as it comes into view
+                cut = plots_cut_off(lab)
+                seen[where] = problems(lab) + cut
                 tag = f"{'dark' if 'Dark' in theme else 'light'}-{'files' if browser_open else 'nofiles'}"
-                lab.screenshot(f"{tag}-views", show=".sb-workbench .sb-psd")
-                lab.screenshot(f"{tag}-controls", show=".sb-workbench .sb-controls")
+                look_at(lab, ".sb-workbench .sb-psd")
+                lab.screenshot(f"{tag}-views")
+                look_at(lab, ".sb-workbench .sb-controls")
+                lab.screenshot(f"{tag}-controls")
     finally:
         use_theme(lab, "JupyterLab Light")  # the theme is a server setting, shared by the tests
     bad = {k: v for k, v in seen.items() if v}

@@ -97,6 +97,7 @@ class Drawn:
     band: dict  # the curve holding the filled area
     line: dict  # the solid line of the estimate on screen
     pins: list[dict]  # dashed or dotted lines, one per pin
+    pin_bands: list[dict] = ()  # the lighter shades of the pins' bands
 
     @property
     def key(self) -> tuple[str, str]:
@@ -114,14 +115,18 @@ def drawn(lab, view: str) -> Drawn:
     curves = curves_of(lab.page.locator(f".sb-{view}").first)
     assert curves, f"no bqplot marks in .sb-{view}"
     # a band is a translucent shade (bqplot also writes an opaque, zero-area path per curve)
-    bands = [c for c in curves if c["area"] and 0 < c["area_opacity"] < 1]
+    shades = [c for c in curves if c["area"] and 0 < c["area_opacity"] < 1]
     lines = [c for c in curves if c["line"] and c["line_opacity"] > 0 and c["line_width"] > 0]
     solid = [c for c in lines if c["dash"] in ("none", "")]
     pins = [c for c in lines if c["dash"] not in ("none", "")]
-    assert len(bands) == 1, f".sb-{view}: {len(bands)} shaded bands, expected 1"
     assert len(solid) == 1, f".sb-{view}: {len(solid)} solid lines, expected 1 (the estimate)"
-    assert bands[0]["area_fill"] == solid[0]["stroke"], "the band is not shaded in the estimate's colour"
-    return Drawn(bands[0], solid[0], pins)
+    bands = [c for c in shades if c["area_fill"] == solid[0]["stroke"]]
+    assert len(bands) == 1, f".sb-{view}: {len(bands)} shaded bands in the estimate's colour, expected 1"
+    # every other shade is a pin's band: in a pin's colour, lighter than the estimate's band
+    pin_bands = [c for c in shades if c is not bands[0]]
+    assert {c["area_fill"] for c in pin_bands} <= {c["stroke"] for c in pins}, "a shade in no pin's colour"
+    assert all(c["area_opacity"] < bands[0]["area_opacity"] for c in pin_bands), "a pin band not lighter"
+    return Drawn(bands[0], solid[0], pins, pin_bands)
 
 
 def assert_visible(curve: dict, part: str, what: str) -> None:
@@ -338,6 +343,8 @@ def test_a_pin_adds_an_overlay_in_both_views(lab):
         d = drawn(lab, view)
         assert len(d.pins) == 1, f"{view}: {len(d.pins)} pin lines after one pin"
         assert_visible(d.pins[0], "line", f"{view} pin")
+        assert len(d.pin_bands) == 1, f"{view}: the pin keeps its band"
+        assert_visible(d.pin_bands[0], "area", f"{view} pin band")
         # the pin lies on the estimate it pinned
         assert d.pins[0]["line"] == d.line["line"]
     lab.screenshot("1-one-pin", show=".sb-psd")
@@ -370,8 +377,17 @@ def test_a_pin_adds_an_overlay_in_both_views(lab):
     lab.page.locator(".sb-merit-resolution", has_text=resolution_hz(4096)).wait_for()
     d = drawn(lab, "psd")
     assert len(d.pins) == 2 and all(pin["line"] != d.line["line"] for pin in d.pins)
+    assert len(d.pin_bands) == 2
     lab.screenshot("2-two-pins", show=".sb-psd")
     lab.screenshot("3-pin-table", show=".sb-pins")
+    # the pin bands can be hidden (and shown again) from the view's toggle
+    lab.page.locator(".sb-pin-band-toggle").first.click()
+    for _ in range(40):  # the kernel redraws the marks
+        if not drawn(lab, "psd").pin_bands:
+            break
+        lab.page.wait_for_timeout(250)
+    assert drawn(lab, "psd").pin_bands == [] and len(drawn(lab, "psd").pins) == 2
+    lab.screenshot("4-pin-bands-hidden", show=".sb-psd")
 
 
 def test_an_invalid_setting_shows_its_message_and_the_last_plot_stays(lab):
