@@ -9,6 +9,7 @@ MODULES = [
     "specbench.estimators.spectral",
     "specbench.estimators.windows",
     "specbench.estimators.correlation",
+    "specbench.estimators.cross",
 ]
 
 

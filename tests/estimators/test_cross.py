@@ -48,6 +48,8 @@ def test_spectrum_scaling_and_matrix_equal_scipy():
     x[1] += 0.5 * x[0]
     res = sb.CrossSpectrum(segment_length=300, overlap=0.6, scaling="spectrum")(x, fs=10.0)
     assert res.is_matrix and res.csd.shape == (4, 4, 151)
+    two = sb.CrossSpectrum(segment_length=300)(x[:2], fs=10.0, pair="all")
+    assert two.is_matrix and np.array_equal(two.pair(1, 0).csd, np.conj(two.pair(0, 1).csd))
     for a in range(4):
         for b in range(4):
             _, p = ss.csd(x[a], x[b], fs=10.0, nperseg=300, noverlap=180, scaling="spectrum")
