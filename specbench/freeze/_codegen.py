@@ -148,6 +148,8 @@ def _specbench_body(state: FreezeState) -> str:
     out.append(f"spectrum = psd_estimator({sig})")
     if acf is not None:
         out.append(f"correlation = acf_estimator({sig})")
+    for lines in getattr(state, "code_lines", {}).values():  # the workbench's other named analyses
+        out += [line.replace("{sig}", sig) for line in lines]
     return "\n".join(out) + "\n"
 
 

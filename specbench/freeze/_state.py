@@ -2,7 +2,7 @@
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from typing import Any
 
 __all__ = ["FreezeState", "Selection", "apply_steps"]
@@ -121,6 +121,12 @@ class FreezeState:
     correlation_estimator: Any
     spectrum: Any = None
     correlation: Any = None
+    #: named analyses beyond psd/acf (name -> estimator), in the workbench's order
+    analyses: dict = field(default_factory=dict)
+    #: per-analysis options written to the settings file (name -> dict)
+    options: dict = field(default_factory=dict)
+    #: name -> specbench-form lines of an extra analysis; ``{sig}`` stands for the signal variable
+    code_lines: dict = field(default_factory=dict)
 
     @property
     def selection(self) -> Selection:

@@ -1,9 +1,15 @@
-"""The Workbench widget and its panels (ipywidgets + bqplot; install the ``lab`` extra).
+"""The Workbench widget and its parts (ipywidgets + bqplot; install the ``lab`` extra).
 
-Panels, one module each: the data strip (``_datastrip``), the controls generated from the
-estimators' constraint tables (``_controls``), the PSD and autocorrelation views
-(``_views``), the figures of merit (``_merit``), the pins (``_pins``), the display
-reductions (``_reduce``) and the style sheet (``_style``).
+Layout (one job per module):
+
+- ``workbench`` — the :class:`Workbench` facade;
+- ``_analysis`` — the named analyses (:class:`Analysis`, :func:`register_analysis`), pure Python;
+- ``_session`` — the analysis state and its transactional update, pure Python;
+- ``_binding`` — controls generated for each analysis and bound to it;
+- ``_scheduler`` — now / coalesced / background-thread computes, progress and cancel;
+- ``_status`` — the status line; ``_pins`` — pins;
+- panels: ``_datastrip``, ``_controls`` (from the constraint tables), ``_viewhost`` (analysis
+  views over ``_views``), ``_merit``, ``freeze_panel``; ``_reduce`` and ``_style``.
 
 Stable CSS classes for browser tests
 ------------------------------------
@@ -12,12 +18,21 @@ Stable CSS classes for browser tests
 ``sb-control-<field>`` on every control (underscores as hyphens, e.g.
 ``sb-control-segment-length``, ``sb-control-acf-max-lag``, ``sb-control-method``,
 ``sb-control-channel``, ``sb-control-fs``, ``sb-control-span``), ``sb-invalid`` on a
-control holding a failing setting, ``sb-psd`` and ``sb-acf`` (the two figures),
-``sb-readout``, ``sb-status`` (plus ``sb-status-error`` / ``sb-status-note`` /
-``sb-status-busy``), ``sb-merit`` (with ``sb-merit-<key>`` cells), ``sb-pins``,
+control holding a failing setting and ``sb-control-message`` beside it, ``sb-psd`` and
+``sb-acf`` (the two figures), ``sb-view-<analysis>``, ``sb-readout``, ``sb-status`` (plus
+``sb-status-error`` / ``sb-status-note`` / ``sb-status-busy``), ``sb-progress``,
+``sb-cancel``, ``sb-merit`` (with ``sb-merit-<key>`` cells), ``sb-pins``,
 ``sb-pin-button``, ``sb-pin-clear``, ``sb-pin-row``, ``sb-pin-remove``.
 """
 
-from .workbench import Workbench
+from ._analysis import Analysis, CorrelationAnalysis, SpectrumAnalysis, register_analysis
 
-__all__ = ["Workbench"]
+__all__ = ["Workbench", "Analysis", "SpectrumAnalysis", "CorrelationAnalysis", "register_analysis"]
+
+
+def __getattr__(name):
+    if name == "Workbench":
+        from .workbench import Workbench
+
+        return Workbench
+    raise AttributeError(name)

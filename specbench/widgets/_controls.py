@@ -27,6 +27,7 @@ marked (:meth:`FieldControl.set_invalid`, CSS class ``sb-invalid``).
 from __future__ import annotations
 
 import contextlib
+import html
 import math
 from dataclasses import dataclass
 from typing import Any
@@ -97,7 +98,10 @@ class FieldControl(W.VBox):
         head += self._build()
         if unit and show_label and not self._unit_in_build:
             head.append(_unit_label(unit))
-        rows = [W.HBox(head, layout=W.Layout(align_items="center"))] + self._extra_rows()
+        # the message of a refused setting, beside (below) the control that caused it
+        self._note = W.HTML(layout=W.Layout(display="none"))
+        self._note.add_class("sb-control-message")
+        rows = [W.HBox(head, layout=W.Layout(align_items="center"))] + self._extra_rows() + [self._note]
         super().__init__(rows, layout=W.Layout(margin="1px 0"))
         self.add_class("sb-control")
         self.add_class(f"sb-control-{key.replace('_', '-')}")
@@ -172,14 +176,20 @@ class FieldControl(W.VBox):
             self._show(value)
 
     def set_invalid(self, message: str | None) -> None:
-        """Mark the control (CSS class ``sb-invalid``) with ``message``, or clear the mark."""
+        """Mark the control (CSS class ``sb-invalid``) and show ``message`` beside it, or clear both."""
+        if message == self.message:
+            return
         self.message = message
         if message:
             self.add_class("sb-invalid")
             self._label.tooltip = f"{message}\n\n{self.help}".strip()
+            self._note.value = f"<span class='sb-err'>{html.escape(message)}</span>"
+            self._note.layout.display = None
         else:
             self.remove_class("sb-invalid")
             self._label.tooltip = self.help
+            self._note.value = ""
+            self._note.layout.display = "none"
 
     @property
     def invalid(self) -> bool:
@@ -190,7 +200,7 @@ class FieldControl(W.VBox):
 
 
 def _unit_label(unit: str) -> W.HTML:
-    return W.HTML(f"<span class='sb-muted'>&nbsp;{unit}</span>")
+    return W.HTML(f"<span class='sb-muted'>&nbsp;{html.escape(unit)}</span>")
 
 
 def _set_range(slider: W.Widget, lo: float, hi: float) -> None:
@@ -527,7 +537,7 @@ class WindowControl(FieldControl):
         self.param_entries = entries
         rows = []
         for e, p in zip(entries, kind.params):
-            rows.append(W.HBox([e, W.HTML(f"<span class='sb-muted'>{p.unit}</span>")] if p.unit else [e]))
+            rows.append(W.HBox([e, W.HTML(f"<span class='sb-muted'>{html.escape(p.unit)}</span>")] if p.unit else [e]))
         self.param_box.children = rows
 
     def _show(self, value):

@@ -8,6 +8,7 @@ rate (the file's, or the override).
 
 from __future__ import annotations
 
+import html
 import math
 from typing import Any
 
@@ -163,7 +164,7 @@ class DataStrip:
         a, b = (0.0, duration) if span is None else span
         self.info.value = (
             f"<span class='sb-muted'>Record</span> {n:,} samples · {fmt(duration)} s at {fmt(fs)} Hz"
-            + (f" · {unit}" if unit else "")
+            + (f" · {html.escape(unit)}" if unit else "")
             + f" &nbsp;&nbsp; <span class='sb-muted'>Span</span> {fmt(a)} to {fmt(b)} s · {n_span:,} samples"
             + ("" if span is not None else " (whole record)")
         )

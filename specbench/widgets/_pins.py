@@ -26,28 +26,29 @@ _LABEL_CHARS = 72
 
 @dataclass
 class Pin:
-    """One pinned estimate.
+    """One pinned estimate (every analysis that had a result on screen).
 
     Attributes
     ----------
     label : str
         Shown in the pin table; built from the differing settings unless given.
-    estimator, correlation_estimator
-        The estimators of the pinned results.
-    spectrum, correlation
-        The full-resolution results (of the analysed channel).
+    estimators, results : dict
+        Analysis name -> estimator and full-resolution result (of the analysed channel).
+    shown : dict
+        Analysis name -> the part of the result its view draws.
     channel, span, fs
         The data selection: channel name, span in seconds (None: whole record) and
         the effective sample rate.
     color, line_style
-        How the pin is drawn in both views.
+        How the pin is drawn in every view.
+    estimator, correlation_estimator, spectrum, correlation
+        The PSD and autocorrelation entries of the dicts (None when not pinned).
     """
 
     label: str
-    estimator: Any
-    correlation_estimator: Any
-    spectrum: Any
-    correlation: Any
+    estimators: dict
+    results: dict
+    shown: dict
     channel: str
     span: tuple[float, float] | None
     fs: float
@@ -55,9 +56,34 @@ class Pin:
     line_style: str
     user_label: bool = False
     settings: dict = field(default_factory=dict, repr=False)
-    #: one-channel views of the results, drawn by the views
-    _spectrum1: Any = field(default=None, repr=False)
-    _correlation1: Any = field(default=None, repr=False)
+
+    @property
+    def estimator(self) -> Any:
+        return self.estimators.get("psd")
+
+    @property
+    def correlation_estimator(self) -> Any:
+        return self.estimators.get("acf")
+
+    @property
+    def spectrum(self) -> Any:
+        return self.results.get("psd")
+
+    @property
+    def correlation(self) -> Any:
+        return self.results.get("acf")
+
+    @property
+    def _spectrum1(self) -> Any:
+        return self.shown.get("psd")
+
+    @property
+    def _correlation1(self) -> Any:
+        return self.shown.get("acf")
+
+    @property
+    def main_estimator(self) -> Any:
+        return next(iter(self.estimators.values()))
 
 
 def _short(v: Any) -> str:
@@ -70,17 +96,21 @@ def _short(v: Any) -> str:
     return str(v)
 
 
-def settings_of(estimator, correlation_estimator, channel, span, fs, shared: set[str]) -> dict[str, Any]:
-    """Everything that makes a pin: method, fields, autocorrelation fields, data selection."""
-    out: dict[str, Any] = {"method": type(estimator).kind}
-    for name in estimator.params():
-        out[name] = getattr(estimator, name)
-    for name in correlation_estimator.params():
-        if name not in shared:
-            out[f"acf_{name}"] = getattr(correlation_estimator, name)
-    out["channel"] = channel
-    out["span"] = span
-    out["fs"] = fs
+def settings_of(session) -> dict[str, Any]:
+    """Everything that makes a pin, by control key: methods, fields, data selection."""
+    out: dict[str, Any] = {}
+    for slot in session.slots.values():
+        if slot.result is None:
+            continue
+        est = slot.est
+        if len(slot.analysis.classes()) > 1:
+            out[slot.analysis.method_key()] = type(est).kind
+        for name in est.params():
+            out.setdefault(session.key_of(slot, name), getattr(est, name))
+    sel = session.sel
+    out["channel"] = sel.channel
+    out["span"] = sel.span
+    out["fs"] = session.main.result.fs if session.main.result is not None else None
     return out
 
 
@@ -98,6 +128,7 @@ def auto_labels(settings: list[dict[str, Any]], estimators: list[Any]) -> list[s
                 parts = [s["method"]] + [p for p in parts if not p.startswith("method=")]
             text = ", ".join(parts)
         else:
+            est = getattr(est, "main_estimator", est)
             changed = est.changed_fields()
             text = type(est).kind + (" " + ", ".join(f"{k}={_short(v)}" for k, v in changed.items()) if changed else "")
         labels.append(text if len(text) <= _LABEL_CHARS else text[: _LABEL_CHARS - 1] + "…")
@@ -136,7 +167,10 @@ class PinBoard:
         self.clear_button.disabled = not pins
         rows = []
         for i, p in enumerate(pins):
-            m = {x.key: x.text for x in spectrum_merits(p.spectrum.channel(0))}
+            spec = p.shown.get("psd")
+            m = {x.key: x.text for x in spectrum_merits(spec)} if spec is not None else {}
+            summary = " · ".join(f"{k} {html.escape(m[key])}" for k, key in (
+                ("res", "resolution"), ("dof", "dof"), ("band", "band_db"), ("Parseval", "parseval")) if key in m)
             data = f"channel {p.channel}"
             if p.span is not None:
                 data += f", span {p.span[0]:g}–{p.span[1]:g} s"
@@ -144,10 +178,9 @@ class PinBoard:
             info = W.HTML(
                 f"<div style='display:flex;gap:10px;align-items:baseline;flex-wrap:wrap'>"
                 f"{swatch(p.color, p.line_style)}<b>{html.escape(p.label)}</b>"
-                f"<span class='sb-muted'>res {html.escape(m['resolution'])} · dof {html.escape(m['dof'])} · "
-                f"band {html.escape(m['band_db'])} · Parseval {html.escape(m['parseval'])}</span></div>"
-                f"<div class='sb-pin-settings'>{html.escape(repr(p.estimator))} · "
-                f"{html.escape(repr(p.correlation_estimator))} · {html.escape(data)}</div>",
+                f"<span class='sb-muted'>{summary}</span></div>"
+                f"<div class='sb-pin-settings'>"
+                f"{' · '.join(html.escape(repr(e)) for e in p.estimators.values())} · {html.escape(data)}</div>",
                 layout=W.Layout(flex="1 1 auto"),
             )
             remove = W.Button(description="", icon="times", layout=W.Layout(width="34px"),
