@@ -94,6 +94,9 @@ class Analysis:
     method_label: str = "Method"
     #: the main analysis gives the status line its estimator (the first registered is main)
     main: bool = False
+    #: ``"one"``: ``compute`` gets the channel chosen in the data strip; ``"all"``: every
+    #: channel of the record (same rate and span), e.g. for cross-channel analyses
+    channels: str = "one"
 
     def classes(self) -> list[type]:
         """The estimator classes this analysis accepts; the first is the default."""

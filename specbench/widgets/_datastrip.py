@@ -79,6 +79,8 @@ class SpanControl(FieldControl):
             self._show(self.value)
 
     def _show(self, value):
+        if value is not None and not (isinstance(value, (tuple, list)) and len(value) == 2):
+            return  # not a span: the workbench refuses it with a message on this control
         a, b = self.extent if value is None else value
         _assign(self.start, value=a)
         _assign(self.stop, value=b)

@@ -126,13 +126,21 @@ class Job:
         self.notes: list[str] = []
         self.seconds = 0.0
         self.cancelled = False
+        #: the record at the selection's rate and span for analyses of every channel (made here,
+        #: on the owning thread, so that ``execute`` only reads)
+        self.signals = {slot.name: session.select(sel, slot.analysis.channels)
+                        for slot, _ in todo if slot.analysis.channels != "one"}
+
+    def signal_for(self, slot: Slot) -> Any:
+        """The selected signal ``slot``'s analysis computes on (one channel, or all)."""
+        return self.signals.get(slot.name, self.signal)
 
     def expected_seconds(self) -> float:
         """The cost model's expected time of the analyses that are not cached."""
         total = 0.0
         for slot, est in self.todo:
             if self.session.cached(slot, est, self.sel) is None:
-                total += slot.analysis.expected_seconds(est, self.signal)
+                total += slot.analysis.expected_seconds(est, self.signal_for(slot))
         return total
 
     def execute(self, progress: Any = None, cancel: Any = None) -> None:
@@ -179,7 +187,7 @@ class Job:
         try:
             with warnings.catch_warnings(record=True) as caught:
                 warnings.simplefilter("always")
-                result = slot.analysis.compute(est, self.signal, progress=progress, cancel=cancel)
+                result = slot.analysis.compute(est, self.signal_for(slot), progress=progress, cancel=cancel)
         except CANCELLED as e:
             self.cancelled = True
             return Attempt(est, error=e, message=str(e))
@@ -264,14 +272,18 @@ class Session:
         return list(fallback)
 
     # ------------------------------------------------------------------ data
-    def select(self, sel: DataSelection) -> Any:
-        """The selected signal (rate, channel, span in the freeze layer's one order), cached."""
-        cached = self._selected.get(sel)
+    def select(self, sel: DataSelection, channels: str = "one") -> Any:
+        """The selected signal (rate, channel, span in the freeze layer's one order), cached.
+
+        ``channels="all"``: every channel of the record at that rate and span.
+        """
+        key = (sel, channels)
+        cached = self._selected.get(key)
         if cached is not None:
             return cached
-        channel = sel.channel if self.signal.n_channels > 1 else None
+        channel = sel.channel if self.signal.n_channels > 1 and channels == "one" else None
         sig = Selection(channel=channel, span=sel.span, fs=sel.fs).apply(self.signal)
-        self._selected[sel] = sig
+        self._selected[key] = sig
         while len(self._selected) > 8:
             self._selected.popitem(last=False)
         return sig
@@ -349,12 +361,13 @@ class Session:
             return None
         try:
             sig = self.select(sel)
+            job = Job(self, sel, sig, todo, changed)
         except SpecbenchError as e:
             keys = [k for k in DATA_KEYS if k in changed] or ["span"]
             self.errors["data"] = Problem(str(e), self.error_keys(None, e, keys) if
                                           getattr(e, "field", None) in DATA_KEYS else keys)
             return None
-        return Job(self, sel, sig, todo, changed)
+        return job
 
     def commit(self, job: Job) -> bool:
         """Take the job's results (see the module docstring); True when the screen changes."""

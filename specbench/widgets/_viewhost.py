@@ -14,7 +14,53 @@ import ipywidgets as W
 
 from ._views import CorrelationView, SpectrumView
 
-__all__ = ["TraceHost", "SpectrumHost", "CorrelationHost"]
+__all__ = ["TraceHost", "SpectrumHost", "CorrelationHost", "DisplayOption"]
+
+
+class DisplayOption:
+    """A view's display option (a drop-down or toggle) as a control: a value outside its
+    options is refused with a message on the control, never a raw trait error."""
+
+    def __init__(self, key: str, widget: Any, label: str) -> None:
+        self.key = key
+        self.widget = widget
+        self.label = label
+        self.message: str | None = None
+        self.on_problem: Any = None  # set by the workbench: callable(key, message or None)
+
+    def _values(self) -> list:
+        return [o[1] if isinstance(o, tuple) else o for o in self.widget.options]
+
+    @property
+    def value(self) -> Any:
+        return self.widget.value
+
+    @value.setter
+    def value(self, value: Any) -> None:
+        values = self._values()
+        if value not in values:
+            msg = f"The {self.label} must be one of {values}; got {value!r}."
+            if self.on_problem is not None:
+                self.on_problem(self.key, msg)
+            return
+        self.widget.value = value
+        if self.on_problem is not None:
+            self.on_problem(self.key, None)
+
+    def observe(self, *args: Any, **kwargs: Any) -> None:
+        self.widget.observe(*args, **kwargs)
+
+    def set_invalid(self, message: str | None) -> None:
+        self.message = message
+        if message:
+            self.widget.add_class("sb-invalid")
+        else:
+            self.widget.remove_class("sb-invalid")
+        self.widget.tooltip = message or getattr(self, "_tooltip", self.widget.tooltip)
+
+    @property
+    def invalid(self) -> bool:
+        return self.message is not None
 
 
 class TraceHost:
@@ -49,8 +95,15 @@ class TraceHost:
 class SpectrumHost(TraceHost):
     view_class = SpectrumView
 
+    def __init__(self, analysis: Any) -> None:
+        super().__init__(analysis)
+        self._options = {"plot_as": DisplayOption("plot_as", self.view.plot_as, "plot option"),
+                         "freq_axis": DisplayOption("freq_axis", self.view.freq_axis, "frequency axis")}
+        for o in self._options.values():
+            o._tooltip = o.widget.tooltip
+
     def controls(self):
-        return {"plot_as": self.view.plot_as, "freq_axis": self.view.freq_axis}
+        return dict(self._options)
 
 
 class CorrelationHost(TraceHost):

@@ -22,6 +22,7 @@ from __future__ import annotations
 
 import contextlib
 import dataclasses
+import html
 import math
 import weakref
 from collections.abc import Iterable
@@ -549,7 +550,7 @@ class SpectrumView(_TraceView):
         i = _nearest(f, x)
         value, lower, upper, unit = spec.view(self.kind, index=i)  # that bin only: this runs on mouse moves
         dof = np.broadcast_to(spec.dof, spec.value.shape)[..., i]
-        return (f"<b>{fmt(f[i])} Hz</b> &nbsp; {fmt(value)} {unit} &nbsp; "
+        return (f"<b>{fmt(f[i])} Hz</b> &nbsp; {fmt(value)} {html.escape(unit)} &nbsp; "
                 f"<span class='sb-muted'>{spec.confidence:.0%} band</span> [{fmt(lower)}, {fmt(upper)}]"
                 f" &nbsp; <span class='sb-muted'>dof</span> {fmt(float(dof))}")
 
@@ -571,7 +572,7 @@ class CorrelationView(_TraceView):
         c = self.result
         lag = c.lag
         i = _nearest(lag, x)
-        unit = f" {c.unit}" if c.unit else ""
+        unit = f" {html.escape(c.unit)}" if c.unit else ""
         band = "white-noise band" if c.band == "white" else "Bartlett band"
         return (f"<b>lag {fmt(lag[i])} s</b> ({i} samples) &nbsp; {fmt(c.value[i])}{unit} &nbsp; "
                 f"<span class='sb-muted'>{c.confidence:.0%} {band}</span> [{fmt(c.lower[i])}, {fmt(c.upper[i])}]")

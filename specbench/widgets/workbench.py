@@ -208,6 +208,10 @@ class Workbench(W.VBox):
                                        layout=W.Layout(align_items="center", display="none")), "small")
         self._progress.add_class("sb-progress")
         self._scheduler = Scheduler(lambda *a: self._run(*a))
+        for host in self._hosts.values():
+            for option in host.controls().values():
+                if hasattr(option, "on_problem"):
+                    option.on_problem = self._view_problem
 
         # controls
         self._binding = ControlBinding(self._session, self._on_field, self._on_method, self._context)
@@ -304,7 +308,18 @@ class Workbench(W.VBox):
             return Context(self._signal.n_samples, self._signal.fs)
 
     def _data_controls(self) -> dict[str, Any]:
-        return {"channel": self._strip.channel, "fs": self._strip.rate, "span": self._strip.span}
+        """The controls outside the binding (data strip, view options), for marking."""
+        out = {"channel": self._strip.channel, "fs": self._strip.rate, "span": self._strip.span}
+        for host in self._hosts.values():
+            out.update(host.controls())
+        return out
+
+    def _view_problem(self, key: str, message: str | None) -> None:
+        if message is None:
+            self._session.errors.pop(f"view:{key}", None)
+        else:
+            self._session.errors[f"view:{key}"] = Problem(message, [key])
+        self._show_status()
 
     # ------------------------------------------------------------------ control events
     def _all_controls(self) -> dict[str, Any]:
@@ -696,7 +711,7 @@ class Workbench(W.VBox):
         if slot is None:
             raise SpecbenchError(f"No analysis named {name!r}; the analyses are {list(s.slots)}.")
         est = slot.analysis.check(est)
-        wanted = {n: x.wanted for n, x in s.slots.items()}
+        wanted = {n: x.est for n, x in s.slots.items()}  # the others as on screen, with the shared fields
         wanted[name] = est
         shared = s.shared_fields({name: type(est)} if slot is s.main else None)
         values = {k: getattr(est, k) for k in shared if k in type(est).params() and s.shares(slot, k, type(est))}

@@ -135,3 +135,23 @@ def test_an_analysis_is_one_class(sig):
     assert bench.controls["raw_window"].value == "blackman"
     with pytest.raises(sb.SettingsError, match="takes sb.Periodogram"):
         bench.set_estimator("raw", sb.Welch())
+
+
+class AllChannelsAnalysis(RawAnalysis):
+    """An analysis of every channel: compute() gets the record at the strip's rate and span."""
+
+    name = "every"
+    prefix = "every_"
+    channels = "all"
+
+    def shown(self, result):
+        return result.channel(1)
+
+
+def test_an_analysis_of_every_channel(sig):
+    bench = sb.Workbench(sig, analyses=[SpectrumAnalysis(), AllChannelsAnalysis()], span=(1.0, 9.0))
+    full = bench.result("every")
+    assert full.value.shape[0] == 2
+    ref = sb.Periodogram()(sig.span(1.0, 9.0))
+    np.testing.assert_array_equal(full.value, ref.value)
+    assert bench.selected.n_channels == 1  # the other analyses still see the chosen channel
