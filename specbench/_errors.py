@@ -4,7 +4,7 @@ Messages follow one template: what is wrong (the value given), the limit it brea
 and how to fix it.  The widget shows the message verbatim in its status line.
 """
 
-__all__ = ["SpecbenchError", "InputError", "SettingsError", "SpecbenchWarning", "Cancelled"]
+__all__ = ["SpecbenchError", "InputError", "SettingsError", "SpecbenchWarning", "Cancelled", "ComputeError"]
 
 
 class SpecbenchError(Exception):
@@ -32,6 +32,11 @@ class SettingsError(SpecbenchError, ValueError):
 class Cancelled(SpecbenchError):
     """A computation was stopped on request (raised by a ``progress`` callback, or by
     :meth:`specbench.estimators.CancelToken.cancel`); no partial result is returned."""
+
+
+class ComputeError(SpecbenchError, RuntimeError):
+    """A computation on a dask scheduler or cluster failed (a worker died, the scheduler
+    does not answer); the message names what happened.  No partial result is returned."""
 
 
 class SpecbenchWarning(UserWarning):

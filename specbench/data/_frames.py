@@ -172,13 +172,17 @@ def from_xarray(
     else:
         names = [str(obj.name) if obj.name is not None else "ch0"]
     pick = select_columns(names, channels, label)
-    data = np.asarray(arr.values).reshape(len(names), -1)[pick]
+    lazy = type(arr.data).__module__.split(".")[0] == "dask"  # dask-backed: stays lazy
+    data = (arr.data if lazy else np.asarray(arr.values)).reshape(len(names), -1)[pick]
 
     def where(i: int) -> str:
         return f"{dim}[{i}] of {label}"
 
     rec = Record(data, label, names=[names[i] for i in pick], where=where,
                  rate_hint=f"fs= or a {dim!r} coordinate")
+    if lazy:  # not read now; the estimators name any non-finite samples they meet
+        rec.scan = False
+        rec.notes.append("dask-backed, read lazily")
     attrs = dict(obj.attrs)
     for name in RATE_ATTRIBUTES + INTERVAL_ATTRIBUTES:
         if name in attrs:

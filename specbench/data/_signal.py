@@ -328,7 +328,8 @@ def _as_2d(data: Any) -> np.ndarray:
     if isinstance(data, Signal):
         raise InputError("data is already a Signal; use signal.with_fs(...) or "
                          "signal.channel(...) to derive a new one.")
-    arr = data if isinstance(data, np.ndarray) else np.asarray(data)
+    lazy = type(data).__module__.split(".")[0] == "dask" and hasattr(data, "chunks")
+    arr = data if isinstance(data, np.ndarray) or lazy else np.asarray(data)
     if arr.dtype.kind not in "biufc":
         raise InputError(
             f"Signal data must be numeric; got dtype {arr.dtype}. Convert it with "
@@ -347,6 +348,8 @@ def _as_2d(data: Any) -> np.ndarray:
             f"Signal data of shape {arr.shape} holds no samples. Pass at least one "
             "channel with at least one sample (samples on the last axis)."
         )
+    if lazy:  # a dask array stays lazy: estimators read it block by block
+        return arr
     view = arr.view()  # keeps the memmap subclass; the caller's array stays writeable
     view.flags.writeable = False
     return view

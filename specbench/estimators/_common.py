@@ -9,7 +9,7 @@ from typing import Any
 import numpy as np
 
 from .._errors import InputError
-from ._engine import as_2d
+from ._engine import as_2d, read_span
 from ._input import Samples, as_samples
 from ._params import Interval, Optional, Options, param
 from .windows import Window
@@ -101,7 +101,7 @@ def nonfinite_error(x: np.ndarray, owner: str, limit: int | None = None) -> Inpu
     count = 0
     chunk = 1 << 20
     for t0 in range(0, x.shape[-1], chunk):
-        bad = ~np.isfinite(x[:, t0 : t0 + chunk])
+        bad = ~np.isfinite(read_span(x, t0, t0 + chunk))  # dask: one chunk at a time
         count += int(bad.sum())
         if len(bad_pos) < 5:
             ch, idx = np.nonzero(bad)

@@ -23,7 +23,7 @@ import numpy as np
 import scipy.fft
 from numpy.lib.stride_tricks import sliding_window_view
 
-from ._engine import block_segments, ordered_map
+from ._engine import block_segments, map_spans
 
 __all__ = ["cross_segment_products", "lag_products_matrix", "work_dtype"]
 
@@ -47,9 +47,47 @@ def work_dtype(xs) -> np.dtype:
 
 
 def _linear_basis(n: int, dtype: np.dtype) -> np.ndarray:
-    t = np.arange(n, dtype=np.float64)
-    q, _ = np.linalg.qr(np.stack([np.ones(n), t - t.mean()], axis=1))
-    return q.astype(dtype)
+    from ._engine import _LinearDetrend
+
+    return _LinearDetrend.cached(n, np.dtype(np.float64)).q.astype(dtype)
+
+
+def _cross_block(span, count: int, local, w: np.ndarray, step: int, nfft: int, detrend: str, q, work,
+                 per_block: int) -> np.ndarray:
+    """Kernel: the upper-triangle cross periodograms summed over one block of segments."""
+    nperseg = w.size
+    c = len(span)
+    iu = np.triu_indices(c)
+    nfreq = nfft // 2 + 1
+    seg = _scratch("xsegments", (c, per_block, nperseg), work)[:, :count]
+    for ch in range(c):
+        view = sliding_window_view(span[ch], nperseg)[::step]
+        blk = view[:count] if local is None else view[local]
+        out = seg[ch]
+        if detrend == "constant":
+            mu = blk.mean(axis=-1, keepdims=True, dtype=np.float64)
+            np.subtract(blk, mu, out=out, casting="unsafe")
+            np.multiply(out, w, out=out)
+        elif q is not None:
+            b64 = np.asarray(blk, dtype=work)
+            np.subtract(b64, (b64 @ q) @ q.T, out=out, casting="unsafe")
+            np.multiply(out, w, out=out)
+        else:
+            np.multiply(blk, w, out=out, casting="unsafe")
+    spec = scipy.fft.rfft(seg, n=nfft, axis=-1, workers=1)  # (C, s, F), one FFT per channel
+    # sums over segments (numpy reductions: BLAS calls from the worker threads would
+    # fight over BLAS's own threads)
+    flat = spec.view(work)  # (C, s, 2F): real and imaginary parts interleaved
+    part = np.empty((iu[0].size, nfreq), dtype=np.complex128)
+    for k, (a, b) in enumerate(zip(*iu)):
+        if a == b:
+            sq = np.square(flat[a]).sum(axis=0, dtype=np.float64)
+            part[k] = sq[0::2] + sq[1::2]
+        else:
+            prod = np.conj(spec[a])
+            prod *= spec[b]
+            part[k] = prod.sum(axis=0, dtype=np.complex128)
+    return part
 
 
 def cross_segment_products(
@@ -79,46 +117,24 @@ def cross_segment_products(
     nseg = n_all if index is None else int(index.size)
     work = work_dtype(xs)
     w = window.astype(work, copy=False)
-    views = [sliding_window_view(xi, nperseg)[::step] for xi in xs]
     q = _linear_basis(nperseg, work) if detrend == "linear" else None
     nfreq = nfft // 2 + 1
     per_block = block_segments(nperseg)
-    starts = list(range(0, nseg, per_block))
     iu = np.triu_indices(c)
-
-    def run(s0: int) -> np.ndarray:
+    spans, calls = [], []
+    for s0 in range(0, nseg, per_block):
         s1 = min(s0 + per_block, nseg)
-        seg = _scratch("xsegments", (c, per_block, nperseg), work)[:, : s1 - s0]
-        for ch, view in enumerate(views):
-            blk = view[s0:s1] if index is None else view[index[s0:s1]]
-            out = seg[ch]
-            if detrend == "constant":
-                mu = blk.mean(axis=-1, keepdims=True, dtype=np.float64)
-                np.subtract(blk, mu, out=out, casting="unsafe")
-                np.multiply(out, w, out=out)
-            elif q is not None:
-                b64 = np.asarray(blk, dtype=work)
-                np.subtract(b64, (b64 @ q) @ q.T, out=out, casting="unsafe")
-                np.multiply(out, w, out=out)
-            else:
-                np.multiply(blk, w, out=out, casting="unsafe")
-        spec = scipy.fft.rfft(seg, n=nfft, axis=-1, workers=1)  # (C, s, F), one FFT per channel
-        # sums over segments (numpy reductions: BLAS calls from the worker threads would
-        # fight over BLAS's own threads)
-        flat = spec.view(work)  # (C, s, 2F): real and imaginary parts interleaved
-        part = np.empty((iu[0].size, nfreq), dtype=np.complex128)
-        for k, (a, b) in enumerate(zip(*iu)):
-            if a == b:
-                sq = np.square(flat[a]).sum(axis=0, dtype=np.float64)
-                part[k] = sq[0::2] + sq[1::2]
-            else:
-                prod = np.conj(spec[a])
-                prod *= spec[b]
-                part[k] = prod.sum(axis=0, dtype=np.complex128)
-        return part
-
+        if index is None:
+            first, last, local = s0, s1 - 1, None
+        else:
+            first, last = int(index[s0]), int(index[s1 - 1])
+            local = index[s0:s1] - first
+        spans.append((first * step, last * step + nperseg))
+        calls.append((s1 - s0, local))
     total = np.zeros((iu[0].size, nfreq), dtype=np.complex128)
-    for part in ordered_map(run, starts):
+    # blocks read through the engines' block interface: NumPy views on the engine threads,
+    # or dask tasks on the active scheduler, summed in block order either way
+    for part in map_spans(_cross_block, xs, spans, calls, (w, step, nfft, detrend, q, work, per_block)):
         total += part
     out = np.empty((c, c, nfreq), dtype=np.complex128)
     out[iu[0], iu[1]] = total
@@ -126,6 +142,31 @@ def cross_segment_products(
     diag = np.arange(c)
     out[diag, diag] = out[diag, diag].real  # auto-spectra are real
     return out, nseg
+
+
+def _lagmat_piece(span, mu: np.ndarray, gaps: bool):
+    out = np.array([row for row in span], dtype=np.float64)
+    out -= mu[:, None]
+    if not gaps:
+        return out, None
+    ok = np.isfinite(out)
+    out[~ok] = 0.0
+    return out, ok.astype(np.float64)
+
+
+def _lagmat_block(short_span, long_span, mu: np.ndarray, p: int, gaps: bool):
+    """Kernel of :func:`lag_products_matrix`: one block and its m-longer stretch."""
+    short, ms = _lagmat_piece(short_span, mu, gaps)
+    long, ml = _lagmat_piece(long_span, mu, gaps)
+    fsh = scipy.fft.rfft(short, n=p, axis=-1, workers=1)
+    flo = scipy.fft.rfft(long, n=p, axis=-1, workers=1)
+    acc = np.conj(fsh)[:, None, :] * flo[None, :, :]
+    cnt = None
+    if gaps:
+        fms = scipy.fft.rfft(ms, n=p, axis=-1, workers=1)
+        fml = scipy.fft.rfft(ml, n=p, axis=-1, workers=1)
+        cnt = np.conj(fms)[:, None, :] * fml[None, :, :]
+    return acc, cnt
 
 
 def lag_products_matrix(
@@ -152,32 +193,11 @@ def lag_products_matrix(
     nblocks = math.ceil(n / blk)
     mu = np.zeros(c) if center is None else np.asarray(center, dtype=np.float64)
 
-    def piece(t0: int, t1: int):
-        out = np.array([ai[t0:t1] for ai in a], dtype=np.float64)
-        out -= mu[:, None]
-        if not gaps:
-            return out, None
-        ok = np.isfinite(out)
-        out[~ok] = 0.0
-        return out, ok.astype(np.float64)
-
-    def run(b: int):
-        t0 = b * blk
-        short, ms = piece(t0, min(t0 + blk, n))
-        long, ml = piece(t0, min(t0 + blk + m, n))
-        fsh = scipy.fft.rfft(short, n=p, axis=-1, workers=1)
-        flo = scipy.fft.rfft(long, n=p, axis=-1, workers=1)
-        acc = np.conj(fsh)[:, None, :] * flo[None, :, :]
-        cnt = None
-        if gaps:
-            fms = scipy.fft.rfft(ms, n=p, axis=-1, workers=1)
-            fml = scipy.fft.rfft(ml, n=p, axis=-1, workers=1)
-            cnt = np.conj(fms)[:, None, :] * fml[None, :, :]
-        return acc, cnt
-
+    spans_x = [(b * blk, min(b * blk + blk, n)) for b in range(nblocks)]
+    spans_y = [(b * blk, min(b * blk + blk + m, n)) for b in range(nblocks)]
     total = np.zeros((c, c, p // 2 + 1), dtype=np.complex128)
     counts = np.zeros_like(total) if gaps else None
-    for acc, cnt in ordered_map(run, list(range(nblocks))):
+    for acc, cnt in map_spans(_lagmat_block, a, spans_x, None, (mu, p, gaps), y=a, spans_y=spans_y):
         total += acc
         if gaps:
             counts += cnt

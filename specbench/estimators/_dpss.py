@@ -31,7 +31,6 @@ antisymmetric ones start with a positive lobe.
 
 from __future__ import annotations
 
-import functools
 import math
 
 import numpy as np
@@ -67,6 +66,13 @@ def _half_system(n: int, nw: float, symmetric: bool):
     return diag, lower, upper, weights
 
 
+def _dot(a: np.ndarray, b: np.ndarray) -> float:
+    """Dot product by NumPy's own loop, not BLAS: the same bits whatever the BLAS thread
+    count (dask workers run BLAS single-threaded), so tapers built on a worker equal the
+    client's."""
+    return float(np.einsum("i,i->", a, b))
+
+
 def _matvec(diag, lower, upper, v, out, tmp) -> np.ndarray:
     np.multiply(diag, v, out=out)
     np.multiply(upper, v[1:], out=tmp[:-1])
@@ -76,10 +82,22 @@ def _matvec(diag, lower, upper, v, out, tmp) -> np.ndarray:
     return out
 
 
-@functools.lru_cache(maxsize=8)
+_BASES: dict = {}
+
+
 def _base(nw: float, k: int) -> tuple[np.ndarray, np.ndarray]:
-    h, ratios = scipy_dpss(BASE_LENGTH, nw, Kmax=k, sym=True, norm=2, return_ratios=True)
-    return np.atleast_2d(h), np.atleast_1d(ratios)
+    """The short tapers that seed the long ones (cached).  scipy's solver gives slightly
+    different bits under a different BLAS thread count, so a dask task receives the
+    client's copy (:func:`seed_base`) instead of computing its own."""
+    key = (float(nw), int(k))
+    if key not in _BASES:
+        h, ratios = scipy_dpss(BASE_LENGTH, nw, Kmax=k, sym=True, norm=2, return_ratios=True)
+        _BASES[key] = (np.atleast_2d(h), np.atleast_1d(ratios))
+    return _BASES[key]
+
+
+def seed_base(nw: float, k: int, base: tuple[np.ndarray, np.ndarray]) -> None:
+    _BASES.setdefault((float(nw), int(k)), base)
 
 
 class HalfTapers:
@@ -156,11 +174,11 @@ def half_tapers(n: int, nw: float, k: int) -> HalfTapers:
         scale = float(np.abs(diag).max() + 2 * upper.max())
         for _ in range(3):
             wh = weights * h
-            norm2 = float(np.dot(wh, h))
+            norm2 = _dot(wh, h)
             ah = _matvec(diag, lower, upper, h, work["ah"], work["tmp"])
-            sigma = float(np.dot(wh, ah)) / norm2
+            sigma = _dot(wh, ah) / norm2
             ah -= sigma * h
-            resid = math.sqrt(float(np.dot(weights * ah, ah)) / norm2) / scale
+            resid = math.sqrt(_dot(weights * ah, ah) / norm2) / scale
             if resid < 1e-13:
                 break
             for attempt in range(3):
@@ -173,14 +191,14 @@ def half_tapers(n: int, nw: float, k: int) -> HalfTapers:
                                                  overwrite_dl=1, overwrite_d=1, overwrite_du=1, overwrite_b=1)
                 if info == 0:
                     break
-            if np.dot(weights * y, h) < 0:
+            if _dot(weights * y, h) < 0:
                 y = -y
-            h = y / math.sqrt(float(np.dot(weights * y, y)))
+            h = y / math.sqrt(_dot(weights * y, y))
         # orthogonal to the earlier tapers of the same parity (those of the other parity
         # are orthogonal by symmetry), as LAPACK's inverse iteration does for clusters
         for i in range(j % 2, j, 2):
-            h = h - float(np.dot(weights * halves[i], h)) * halves[i]
-        h = h / math.sqrt(float(np.dot(weights * h, h)))
+            h = h - _dot(weights * halves[i], h) * halves[i]
+        h = h / math.sqrt(_dot(weights * h, h))
         halves.append(np.array(h))
     return HalfTapers(n, halves, ratios.copy())
 

@@ -10,18 +10,20 @@ from __future__ import annotations
 
 import contextlib
 import contextvars
+import functools
 import math
 import os
 import threading
 from collections import deque
 from collections.abc import Callable, Iterator, Sequence
 from concurrent.futures import ThreadPoolExecutor
+from typing import Any
 
 import numpy as np
 import scipy.fft
 from numpy.lib.stride_tricks import sliding_window_view
 
-from .._errors import Cancelled, SettingsError
+from .._errors import Cancelled, ComputeError, InputError, SettingsError, SpecbenchError
 
 __all__ = [
     "segment_power",
@@ -170,7 +172,7 @@ def checkpoint() -> None:
         tracker.report(tracker.last)
 
 
-def ordered_map(func: Callable, items: Sequence) -> Iterator:
+def ordered_map(func: Callable, items: Sequence, report_blocks: bool = True) -> Iterator:
     """``func(i) for i in items``, in order, on the worker threads.
 
     At most ``2 * threads`` items are in flight, so results that are consumed as they come
@@ -179,7 +181,7 @@ def ordered_map(func: Callable, items: Sequence) -> Iterator:
     started are dropped and the ones in flight are waited for, so no worker thread is
     left writing when the error reaches the caller.
     """
-    report = _PROGRESS.get()
+    report = _PROGRESS.get() if report_blocks else None
     tracker = _TRACKER.get()
     total = len(items)
     done = 0
@@ -190,7 +192,10 @@ def ordered_map(func: Callable, items: Sequence) -> Iterator:
         if report is not None:
             report(done, total)
         if tracker is not None:
-            tracker.block(done, total)
+            if report_blocks:
+                tracker.block(done, total)
+            else:
+                tracker.check()
         return result
 
     if tracker is not None:
@@ -264,12 +269,220 @@ class _LinearDetrend:
     """Least-squares line removal on the last axis via an orthonormal [1, t] basis."""
 
     def __init__(self, n: int, dtype: np.dtype):
-        t = np.arange(n, dtype=np.float64)
-        q, _ = np.linalg.qr(np.stack([np.ones(n), t - t.mean()], axis=1))
+        # the orthonormal basis written out (no LAPACK/BLAS: the same bits on a dask worker,
+        # whose BLAS runs single-threaded, as in the client)
+        t = np.arange(n, dtype=np.float64) - (n - 1) / 2.0
+        q = np.stack([np.full(n, 1.0 / math.sqrt(n)), t / math.sqrt(float(np.einsum("i,i->", t, t)) or 1.0)], axis=1)
         self.q = q.astype(dtype)
 
     def __call__(self, seg: np.ndarray, out: np.ndarray) -> None:
-        np.subtract(seg, (seg @ self.q) @ self.q.T, out=out)
+        coef = np.einsum("...n,nk->...k", seg, self.q)
+        np.subtract(seg, np.einsum("...k,nk->...n", coef, self.q), out=out)
+
+    @staticmethod
+    @functools.lru_cache(maxsize=16)
+    def cached(n: int, dtype: np.dtype) -> _LinearDetrend:
+        return _LinearDetrend(n, dtype)
+
+
+# ---------------------------------------------------------------- block reading
+#
+# Every streamed engine is written as a *kernel*: a pure function of one contiguous span
+# of the record, ``kernel(span, *per_span_args, *args) -> partial result``, plus the list
+# of spans in a fixed order.  :func:`map_spans` runs the kernels and yields the partial
+# results in that order, and the engine combines them in that order.  For a NumPy array
+# (or a memory map) a span is a view and the kernels run on the engine threads; for a
+# dask array each group of consecutive spans becomes one task on the active dask
+# scheduler (a distributed Client included): the samples are read and reduced where the
+# task runs, only the partial results travel back, a bounded number of tasks is in
+# flight, and -- the kernels and the order of combination being the same -- the result
+# has the same bits as in memory.
+
+
+def is_lazy(x: Any) -> bool:
+    """True for a dask array (the only lazy array the engines stream)."""
+    return type(x).__module__.split(".")[0] == "dask" and hasattr(x, "chunks") and hasattr(x, "dask")
+
+
+def check_lazy(x: Any) -> None:
+    """A dask array must know its chunk sizes: the engines plan their spans from them."""
+    if any(math.isnan(c) for dim in x.chunks for c in dim):
+        raise InputError(
+            f"The dask array has unknown chunk sizes (shape {x.shape}, chunks with NaN), "
+            "so its samples cannot be cut into blocks. Call x = x.compute_chunk_sizes() "
+            "first (or build the array with known chunk sizes)."
+        )
+
+
+#: samples per dask task (a group of engine blocks): large enough that the scheduler's
+#: overhead per task stays small, small enough that a worker holds a few (PERFORMANCE.md)
+TASK_SAMPLES = 1 << 21
+
+
+def _run_group(kernel: Callable, sx: Any, sy: Any, items: list, args: tuple) -> list:
+    """One dask task: the kernels of a group of spans, run where the task runs."""
+    sx = np.asarray(sx)
+    sy = None if sy is None else np.asarray(sy)
+    out = []
+    for (a, b), yspan, extra in items:
+        if sy is None:
+            out.append(kernel(sx[..., a:b], *extra, *args))
+        else:
+            out.append(kernel(sx[..., a:b], sy[..., yspan[0]:yspan[1]], *extra, *args))
+    return out
+
+
+def _in_flight() -> int:
+    """Tasks submitted at a time: twice the threads of the cluster (or of this machine)."""
+    try:
+        from distributed import default_client
+
+        info = default_client().scheduler_info()
+        threads = sum(w.get("nthreads", 1) for w in info.get("workers", {}).values())
+        return max(4, 2 * threads)
+    except (ImportError, ValueError):
+        return max(4, 2 * _THREADS)
+
+
+def map_spans(kernel: Callable, x: Any, spans: Sequence[tuple[int, int]], per_span: Sequence[tuple] | None = None,
+              args: tuple = (), y: Any = None, spans_y: Sequence[tuple[int, int]] | None = None,
+              report_blocks: bool = True) -> Iterator:
+    """``kernel(x[..., a:b], *per_span[i], *args)`` for each span ``i``, yielded in order.
+
+    ``report_blocks=False`` for the short auxiliary passes (moments, trends, gap scans):
+    they honour a cancel request but do not count as a pass of the progress fraction.
+
+    With ``y``: ``kernel(x[..., a:b], y[..., c:d], *per_span[i], *args)``, ``(c, d) =
+    spans_y[i]``.  See the section notes for NumPy and dask inputs.
+    """
+    spans = list(spans)
+    per = list(per_span) if per_span is not None else [()] * len(spans)
+    x, y = _channels_array(x), _channels_array(y)
+    if not (is_lazy(x) or is_lazy(y)):
+        if y is None:
+            def one(i):
+                a, b = spans[i]
+                return kernel(_take(x, a, b), *per[i], *args)
+        else:
+            def one(i):
+                (a, b), (c, d) = spans[i], spans_y[i]
+                return kernel(_take(x, a, b), _take(y, c, d), *per[i], *args)
+        yield from ordered_map(one, range(len(spans)), report_blocks)
+        return
+    import dask
+
+    tracker = _TRACKER.get()
+    report = _PROGRESS.get() if report_blocks else None
+    groups: list[list[int]] = []
+    for i, (a, b) in enumerate(spans):
+        if groups and b - spans[groups[-1][0]][0] <= max(TASK_SAMPLES, b - a) and (
+            y is None or spans_y[i][1] - spans_y[groups[-1][0]][0] <= max(TASK_SAMPLES, b - a)
+        ):
+            groups[-1].append(i)
+        else:
+            groups.append([i])
+    tasks = []
+    for g in groups:
+        lo, hi = min(spans[i][0] for i in g), max(spans[i][1] for i in g)
+        if y is None:
+            items = [((spans[i][0] - lo, spans[i][1] - lo), None, per[i]) for i in g]
+            tasks.append(dask.delayed(_run_group, pure=True)(kernel, x[..., lo:hi], None, items, args))
+        else:
+            ly, hy = min(spans_y[i][0] for i in g), max(spans_y[i][1] for i in g)
+            items = [((spans[i][0] - lo, spans[i][1] - lo), (spans_y[i][0] - ly, spans_y[i][1] - ly), per[i])
+                     for i in g]
+            tasks.append(dask.delayed(_run_group, pure=True)(kernel, x[..., lo:hi], y[..., ly:hy], items, args))
+    window = _in_flight()
+    done, total = 0, len(spans)
+    if tracker is not None:
+        tracker.check()
+    for t0 in range(0, len(tasks), window):
+        try:
+            results = dask.compute(*tasks[t0 : t0 + window])
+        except Exception as e:  # a worker died, the scheduler went away, ...
+            if isinstance(e, SpecbenchError):
+                raise
+            raise ComputeError(
+                f"The dask computation failed while estimating (at block {done + 1} of {total}): "
+                f"{type(e).__name__}: {e}. No result was produced. Check the cluster (workers "
+                "alive, enough memory per worker) and run the estimate again."
+            ) from e
+        for part in results:
+            for r in part:
+                done += 1
+                if report is not None:
+                    report(done, total)
+                if tracker is not None:
+                    if report_blocks:
+                        tracker.block(done, total)
+                    else:
+                        tracker.check()
+                yield r
+
+
+def _channels_array(x: Any) -> Any:
+    """A list of 1-D channels stays a list (views, no copy) unless one is lazy: then the
+    channels are stacked lazily into one dask array."""
+    if isinstance(x, (list, tuple)) and any(is_lazy(c) for c in x):
+        import dask.array as da
+
+        return da.stack([c if is_lazy(c) else da.from_array(np.asarray(c)) for c in x])
+    return x
+
+
+def _take(x: Any, a: int, b: int) -> Any:
+    if isinstance(x, (list, tuple)):
+        return [c[a:b] for c in x]
+    return x[..., a:b]
+
+
+def read_span(x: Any, a: int, b: int) -> np.ndarray:
+    """``x[..., a:b]`` as a NumPy array (a view for NumPy input; computed for dask)."""
+    part = x[..., a:b]
+    return np.asarray(part.compute()) if is_lazy(part) else part
+
+
+def chunk_spans(n: int, chunk: int) -> list[tuple[int, int]]:
+    return [(t0, min(n, t0 + chunk)) for t0 in range(0, n, chunk)]
+
+
+def _segment_block(span: np.ndarray, count: int, local: np.ndarray | None, w: np.ndarray, step: int,
+                   nfft: int, detrend: str, twosided: bool, keep_each: bool, per_block: int) -> np.ndarray:
+    """The kernel of :func:`segment_power`: ``count`` segments of one span.
+
+    ``local``: the segments' start indices within the span in units of ``step`` (None: the
+    consecutive segments 0 .. count-1).
+    """
+    nperseg = w.size
+    c = span.shape[0]
+    cplx = np.iscomplexobj(span)
+    work = np.float32 if span.dtype in (np.float32, np.complex64, np.int16, np.int8, np.uint8) else np.float64
+    buf_dtype = np.dtype(np.complex64 if work is np.float32 else np.complex128) if cplx else np.dtype(work)
+    view = sliding_window_view(span, nperseg, axis=-1)[:, ::step, :]
+    blk = view[:, :count, :] if local is None else view[:, local, :]
+    seg = _scratch("segments", (c, per_block, nperseg), buf_dtype)[:, :count]
+    if detrend == "constant":
+        mu = blk.mean(axis=-1, keepdims=True) if local is not None else _block_means(span, 0, count, step, nperseg)
+        np.subtract(blk, mu.astype(buf_dtype, copy=False), out=seg, casting="unsafe")
+        np.multiply(seg, w, out=seg)
+    elif detrend == "linear":
+        _LinearDetrend.cached(nperseg, np.dtype(work))(blk, seg)
+        np.multiply(seg, w, out=seg)
+    else:
+        np.multiply(blk, w, out=seg, casting="unsafe")
+    fft = scipy.fft.fft if twosided else scipy.fft.rfft
+    spec = fft(seg, n=nfft, axis=-1, workers=1, overwrite_x=True)
+    if keep_each:
+        p = spec.real * spec.real
+        p += spec.imag * spec.imag
+        return p.astype(np.float64, copy=False)
+    # |X|^2 summed over the block's segments in one pass over the spectra, without
+    # temporaries: the squares of the real and imaginary parts (interleaved in the float
+    # view) are summed over segments (float32 data: in float32 within a block), then
+    # added pairwise
+    flat = spec.view(spec.real.dtype)
+    sq = np.einsum("csj,csj->cj", flat, flat)
+    return np.add(sq[:, 0::2], sq[:, 1::2], dtype=np.float64)
 
 
 def segment_power(
@@ -287,7 +500,7 @@ def segment_power(
 
     Parameters
     ----------
-    x : (C, N) array
+    x : (C, N) array (NumPy, memory map or dask)
     window : (nperseg,) array, the taper applied to every segment
     step : int, samples between segment starts
     nfft : int, FFT length (zero padding when > nperseg)
@@ -310,51 +523,42 @@ def segment_power(
     else:
         index = np.asarray(segments, dtype=np.intp)
         nseg = index.size
-    cplx = np.iscomplexobj(x)
-    work = np.float32 if x.dtype in (np.float32, np.complex64, np.int16, np.int8, np.uint8) else np.float64
-    buf_dtype = np.dtype(np.complex64 if work is np.float32 else np.complex128) if cplx else np.dtype(work)
-    w = window.astype(work, copy=False)
-    view = sliding_window_view(x, nperseg, axis=-1)[:, ::step, :]
-    linear = _LinearDetrend(nperseg, np.dtype(work)) if detrend == "linear" else None
-    fft = scipy.fft.fft if twosided else scipy.fft.rfft
+    single = x.dtype in (np.float32, np.complex64, np.int16, np.int8, np.uint8)
+    w = window.astype(np.float32 if single else np.float64, copy=False)
     nfreq = nfft if twosided else nfft // 2 + 1
     per_block = min(block_segments(nperseg), max(1, nseg))
-    starts = list(range(0, nseg, per_block))
-    out = np.empty((c, nseg, nfreq), dtype=np.float64) if keep_each else None
-
-    def run(s0: int):
+    spans, calls = [], []
+    for s0 in range(0, nseg, per_block):
         s1 = min(s0 + per_block, nseg)
-        blk = view[:, s0:s1, :] if index is None else view[:, index[s0:s1], :]
-        seg = _scratch("segments", (c, per_block, nperseg), buf_dtype)[:, : s1 - s0]
-        if detrend == "constant":
-            mu = blk.mean(axis=-1, keepdims=True) if index is not None else _block_means(
-                x, s0 * step, s1 - s0, step, nperseg
-            )
-            np.subtract(blk, mu.astype(buf_dtype, copy=False), out=seg, casting="unsafe")
-            np.multiply(seg, w, out=seg)
-        elif linear is not None:
-            linear(blk, seg)
-            np.multiply(seg, w, out=seg)
+        if index is None:
+            first, last, local = s0, s1 - 1, None
         else:
-            np.multiply(blk, w, out=seg, casting="unsafe")
-        spec = fft(seg, n=nfft, axis=-1, workers=1, overwrite_x=True)
-        if keep_each:
-            p = spec.real * spec.real
-            p += spec.imag * spec.imag
-            out[:, s0:s1, :] = p
-            return None
-        # |X|^2 summed over the block's segments in one pass over the spectra, without
-        # temporaries: the squares of the real and imaginary parts (interleaved in the
-        # float view) are summed over segments, then added pairwise
-        flat = spec.view(spec.real.dtype)
-        sq = np.einsum("csj,csj->cj", flat, flat)
-        return np.add(sq[:, 0::2], sq[:, 1::2], dtype=np.float64)
-
+            first, last = int(index[s0]), int(index[s1 - 1])
+            local = index[s0:s1] - first
+        spans.append((first * step, last * step + nperseg))
+        calls.append((s1 - s0, local))
+    out = np.empty((c, nseg, nfreq), dtype=np.float64) if keep_each else None
     total = np.zeros((c, nfreq), dtype=np.float64)
-    for part in ordered_map(run, starts):
-        if part is not None:
+    parts = map_spans(_segment_block, x, spans, calls,
+                      (w, step, nfft, detrend, twosided, keep_each, per_block))
+    s0 = 0
+    for (count, _), part in zip(calls, parts):
+        if keep_each:
+            out[:, s0 : s0 + count, :] = part
+        else:
             total += part
+        s0 += count
     return (out if keep_each else total), nseg
+
+
+def _finite_block(span: np.ndarray, t0: int) -> np.ndarray:
+    """Kernel: positions (from ``t0``) of the samples where any channel is not finite."""
+    if span.dtype.kind not in "fc":
+        return np.empty(0, dtype=np.int64)
+    hit = ~np.isfinite(span)
+    if not hit.any():
+        return np.empty(0, dtype=np.int64)
+    return np.nonzero(hit.any(axis=0))[0] + t0
 
 
 def clean_segments(x: np.ndarray, nperseg: int, step: int) -> np.ndarray:
@@ -365,19 +569,19 @@ def clean_segments(x: np.ndarray, nperseg: int, step: int) -> np.ndarray:
     """
     c, n = x.shape
     n_all = (n - nperseg) // step + 1
-    chunk = 1 << 16
-    bad = []
-    for t0 in range(0, n, chunk):
-        part = x[:, t0 : t0 + chunk]
-        if part.dtype.kind in "fc":
-            hit = ~np.isfinite(part)
-            if hit.any():
-                bad.append(np.nonzero(hit.any(axis=0))[0] + t0)
+    spans = chunk_spans(n, 1 << 16)
+    bad = [p for p in map_spans(_finite_block, x, spans, [(a,) for a, _ in spans], report_blocks=False) if p.size]
     if not bad:
         return np.ones(n_all, dtype=bool)
     pos = np.concatenate(bad)
     starts = np.arange(n_all, dtype=np.int64) * step
     return np.searchsorted(pos, starts + nperseg) == np.searchsorted(pos, starts)
+
+
+def _trend_block(span: np.ndarray, t0: int, linear: bool) -> tuple[np.ndarray, np.ndarray | None]:
+    seg = np.asarray(span, dtype=np.float64)
+    st = np.einsum("ij,j->i", seg, np.arange(t0, t0 + seg.shape[-1], dtype=np.float64)) if linear else None
+    return seg.sum(axis=-1), st
 
 
 def trend_coefficients(x: np.ndarray, detrend: str) -> tuple[np.ndarray, np.ndarray]:
@@ -392,18 +596,41 @@ def trend_coefficients(x: np.ndarray, detrend: str) -> tuple[np.ndarray, np.ndar
         return zero, zero
     s1 = np.zeros(c)
     st = np.zeros(c)
-    chunk = 1 << 16
-    for t0 in range(0, n, chunk):
-        seg = np.asarray(x[:, t0 : t0 + chunk], dtype=np.float64)
-        s1 += seg.sum(axis=-1)
-        if detrend == "linear":
-            st += seg @ np.arange(t0, t0 + seg.shape[-1], dtype=np.float64)
+    spans = chunk_spans(n, 1 << 16)
+    linear = detrend == "linear"
+    for a_sum, t_sum in map_spans(_trend_block, x, spans, [(a,) for a, _ in spans], (linear,), report_blocks=False):
+        s1 += a_sum
+        if linear:
+            st += t_sum
     mean = s1 / n
     if detrend == "constant" or n < 2:
         return mean, zero
     t_mean = (n - 1) / 2
     slope = (st / n - mean * t_mean) / ((n * n - 1) / 12.0)
     return mean - slope * t_mean, slope
+
+
+def _detrended_piece(span: np.ndarray, trend, t0: int) -> np.ndarray:
+    out = np.asarray(span, dtype=np.float64)
+    if trend is not None:
+        t = np.arange(t0, t0 + span.shape[-1], dtype=np.float64)
+        out = out - trend[0][:, None] - trend[1][:, None] * t
+    return out
+
+
+def _lag_block(sx: np.ndarray, sy: np.ndarray, start: int, count: int, blk: int, m: int, p: int, n: int,
+               trend_x, trend_y) -> np.ndarray:
+    """Kernel of :func:`lagged_products`: ``count`` blocks from sample ``start``."""
+    acc = np.zeros((sx.shape[0], p // 2 + 1), dtype=np.complex128)
+    for i in range(count):
+        a = i * blk
+        t0 = start + a
+        xs = _detrended_piece(sx[:, a : min(a + blk, n - start)], trend_x, t0)
+        ys = _detrended_piece(sy[:, a : min(a + blk + m, n - start)], trend_y, t0)
+        fx = scipy.fft.rfft(xs, n=p, axis=-1, workers=1)
+        fy = scipy.fft.rfft(ys, n=p, axis=-1, workers=1)
+        acc += np.conj(fx) * fy
+    return acc
 
 
 def lagged_products(
@@ -429,26 +656,26 @@ def lagged_products(
     group = max(1, (1 << 20) // p)
     starts = list(range(0, nblocks, group))
 
-    def piece(a: np.ndarray, trend, t0: int, t1: int) -> np.ndarray:
-        out = np.asarray(a[:, t0:t1], dtype=np.float64)
-        if trend is not None:
-            t = np.arange(t0, t1, dtype=np.float64)
-            out = out - trend[0][:, None] - trend[1][:, None] * t
-        return out
-
-    def run(b0: int) -> np.ndarray:
-        acc = np.zeros((c, p // 2 + 1), dtype=np.complex128)
-        for b in range(b0, min(b0 + group, nblocks)):
-            t0 = b * blk
-            fx = scipy.fft.rfft(piece(x, trend_x, t0, min(t0 + blk, n)), n=p, axis=-1, workers=1)
-            fy = scipy.fft.rfft(piece(y, trend_y, t0, min(t0 + blk + m, n)), n=p, axis=-1, workers=1)
-            acc += np.conj(fx) * fy
-        return acc
-
+    spans_x, spans_y, per = [], [], []
+    for b0 in starts:
+        b1 = min(b0 + group, nblocks)
+        spans_x.append((b0 * blk, min(b1 * blk, n)))
+        spans_y.append((b0 * blk, min(b1 * blk + m, n)))
+        per.append((b0 * blk, b1 - b0))
     total = np.zeros((c, p // 2 + 1), dtype=np.complex128)
-    for part in ordered_map(run, starts):
+    for part in map_spans(_lag_block, x, spans_x, per, (blk, m, p, n, trend_x, trend_y), y=y, spans_y=spans_y):
         total += part
     return scipy.fft.irfft(total, n=p, axis=-1)[:, : m + 1]
+
+
+def _moment_block(span: np.ndarray, a: int, shift: np.ndarray, dt: Any, cplx: bool, linear: bool):
+    """Kernel of :class:`Moments`: shifted sums of one span starting at sample ``a``."""
+    seg = np.asarray(span, dtype=dt) - shift[:, None]
+    s1 = seg.sum(axis=-1)
+    s2 = np.einsum("ij,ij->i", seg.conj(), seg).real if cplx else np.einsum("ij,ij->i", seg, seg)
+    t = np.arange(a, a + seg.shape[-1], dtype=np.float64)
+    st = np.einsum("ij,j->i", seg, t) if linear and not cplx else None
+    return seg.shape[-1], s1, s2, st
 
 
 class Moments:
@@ -463,21 +690,21 @@ class Moments:
         c, n = x.shape
         self.cplx = np.iscomplexobj(x)
         self.dt = np.complex128 if self.cplx else np.float64
-        self.shift = np.asarray(x[:, : min(n, 4096)], dtype=self.dt).mean(axis=-1)
+        self.shift = np.asarray(read_span(x, 0, min(n, 4096)), dtype=self.dt).mean(axis=-1)
         self.n = 0
         self.s1 = np.zeros(c, dtype=self.dt)
         self.s2 = np.zeros(c)
         self.st = np.zeros(c)
 
     def add(self, x: np.ndarray, t0: int, t1: int, linear: bool) -> None:
-        for a in range(t0, t1, 1 << 16):
-            b = min(t1, a + (1 << 16))
-            seg = np.asarray(x[:, a:b], dtype=self.dt) - self.shift[:, None]
-            self.n += b - a
-            self.s1 += seg.sum(axis=-1)
-            self.s2 += np.einsum("ij,ij->i", seg.conj(), seg).real if self.cplx else np.einsum("ij,ij->i", seg, seg)
-            if linear and not self.cplx:
-                self.st += seg @ np.arange(a, b, dtype=np.float64)
+        spans = [(a, min(t1, a + (1 << 16))) for a in range(t0, t1, 1 << 16)]
+        for count, s1, s2, st in map_spans(_moment_block, x, spans, [(a,) for a, _ in spans],
+                                           (self.shift, self.dt, self.cplx, linear), report_blocks=False):
+            self.n += count
+            self.s1 += s1
+            self.s2 += s2
+            if st is not None:
+                self.st += st
 
     def variance(self, detrend: str) -> np.ndarray:
         n = self.n

@@ -70,7 +70,7 @@ def as_samples(x: Any, fs: Any = None, *, min_samples: int = 2) -> Samples:
     so the record is never copied whole.  Booleans become float64.
     """
     obj = x
-    if not _is_signal_like(obj) and not isinstance(obj, np.ndarray):
+    if not _is_signal_like(obj) and not isinstance(obj, np.ndarray) and not _is_dask(obj):
         for conv in _CONVERTERS:
             converted = conv(obj, fs=fs)
             if converted is not None:
@@ -91,7 +91,7 @@ def as_samples(x: Any, fs: Any = None, *, min_samples: int = 2) -> Samples:
     else:
         if isinstance(obj, (list, tuple, np.generic, int, float, complex)):
             obj = np.asarray(obj)
-        if not isinstance(obj, np.ndarray):
+        if not isinstance(obj, np.ndarray) and not _is_dask(obj):
             raise InputError(
                 f"Cannot estimate from an object of type {type(obj).__name__}. "
                 "Pass a NumPy array with fs=..., a specbench Signal, a pandas Series/DataFrame "
@@ -117,8 +117,19 @@ def as_samples(x: Any, fs: Any = None, *, min_samples: int = 2) -> Samples:
     return Samples(data=data, fs=fs_value, channels=channels, unit=unit, source=source)
 
 
+def _is_dask(obj: Any) -> bool:
+    return type(obj).__module__.split(".")[0] == "dask" and hasattr(obj, "chunks") and hasattr(obj, "dask")
+
+
 def _as_numeric(data: Any) -> np.ndarray:
-    arr = data if isinstance(data, np.ndarray) else np.asarray(data)
+    if _is_dask(data):  # stays lazy: the engines read it block by block (no compute here)
+        if any(c != c for dim in data.chunks for c in dim):
+            raise InputError(
+                f"The dask array has unknown chunk sizes (shape {data.shape}, chunks with NaN), "
+                "so its samples cannot be cut into blocks. Call x = x.compute_chunk_sizes() "
+                "first (or build the array with known chunk sizes)."
+            )
+    arr = data if isinstance(data, np.ndarray) or _is_dask(data) else np.asarray(data)
     if arr.dtype.kind == "b":
         return arr.astype(np.float64)
     if arr.dtype.kind in "iu":

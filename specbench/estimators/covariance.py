@@ -30,7 +30,7 @@ from .._errors import InputError
 from ._base import Estimator
 from ._common import Timer, confidence_field, nonfinite_error
 from ._cross_engine import lag_products_matrix
-from ._engine import as_2d
+from ._engine import as_2d, chunk_spans, map_spans, read_span
 from ._input import as_samples
 from ._params import Interval, Optional, Options, param
 from ._results import power_unit
@@ -251,23 +251,31 @@ def _pair_sums(data: np.ndarray, gaps: bool):
     samples where ``j`` is present, ``cnt[i, j]`` (``d = x - shift``).
     """
     c, n = data.shape
-    head = np.asarray(data[:, : min(n, 4096)], dtype=np.float64)
+    head = np.asarray(read_span(data, 0, min(n, 4096)), dtype=np.float64)
     shift = np.nanmean(np.where(np.isfinite(head), head, np.nan), axis=1) if gaps else head.mean(axis=1)
     shift = np.nan_to_num(shift)
     sxy = np.zeros((c, c))
     sx = np.zeros((c, c))
     cnt = np.zeros((c, c))
-    chunk = 1 << 16
-    for t0 in range(0, n, chunk):
-        d = np.asarray(data[:, t0 : t0 + chunk], dtype=np.float64) - shift[:, None]
-        if gaps:
-            ok = np.isfinite(d)
-            d[~ok] = 0.0
-            okf = ok.astype(np.float64)
-            sx += d @ okf.T
-            cnt += okf @ okf.T
-        else:
-            sx += d.sum(axis=1)[:, None]
-            cnt += d.shape[1]
-        sxy += d @ d.T
+    # chunks read through the engines' block interface (dask: on the workers), added in order
+    for psx, pcnt, psxy in map_spans(_pair_block, data, chunk_spans(n, 1 << 16), None, (shift, gaps),
+                                     report_blocks=False):
+        sx += psx
+        cnt += pcnt
+        sxy += psxy
     return shift, sxy, sx, cnt
+
+
+def _pair_block(span: np.ndarray, shift: np.ndarray, gaps: bool):
+    """Kernel of :func:`_pair_sums` for one chunk."""
+    d = np.asarray(span, dtype=np.float64) - shift[:, None]
+    if gaps:
+        ok = np.isfinite(d)
+        d[~ok] = 0.0
+        okf = ok.astype(np.float64)
+        psx = d @ okf.T
+        pcnt = okf @ okf.T
+    else:
+        psx = d.sum(axis=1)[:, None]
+        pcnt = float(d.shape[1])
+    return psx, pcnt, d @ d.T

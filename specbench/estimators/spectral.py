@@ -46,13 +46,15 @@ from ._common import (
     window_field,
 )
 from ._dof import band_factors, edge_bins, median_bias, median_dof_factor, welch_dof
-from ._dpss import HalfTapers, half_tapers
+from ._dpss import HalfTapers, _base, half_tapers, seed_base
 from ._engine import (
     _scratch,
     checkpoint,
     clean_segments,
     detrended_variance,
     expect_passes,
+    is_lazy,
+    map_spans,
     ordered_map,
     segment_power,
     trend_coefficients,
@@ -403,62 +405,89 @@ def _tapers(n: int, nw: float, k: int) -> tuple[np.ndarray, np.ndarray]:
     return h, np.atleast_1d(ratios)
 
 
-def _whole_record_eigenspectra(x: np.ndarray, n: int, nw: float, k: int, nfft: int, detrend: str,
-                               twosided: bool) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
-    """``|FFT(taper_j * detrend(x_c))|**2`` for every channel and taper of one whole record.
-
-    One item of work per (channel, taper), run two at a time on the engine threads; each
-    writes its own row of the result, so the bits do not depend on the thread count.
-    Returns ``(sk (C, K, F), concentrations (K,), taper sums (K,))``.
-    """
-    c = x.shape[0]
+def _record_tapers(n: int, nw: float, k: int):
+    """``(apply(j, src, out), concentrations, taper sums)`` for whole-record tapers."""
     if n > FAST_DPSS_MIN:
         tapers = _long_tapers(n, float(nw), k)
-        lam, sums = np.array(tapers.ratios), tapers.sums()
-        apply = tapers.apply
-    else:
-        h, lam = _tapers(n, float(nw), k)
-        sums = h.sum(axis=1)
+        return tapers.apply, np.array(tapers.ratios), tapers.sums()
+    h, lam = _tapers(n, float(nw), k)
+
+    def apply(j, src, out):
+        return np.multiply(src, h[j], out=out, casting="unsafe")
+
+    return apply, lam, h.sum(axis=1)
+
+
+def _taper_seed(n: int, nw: float, k: int) -> tuple:
+    """What a dask task needs to rebuild the client's tapers bit for bit."""
+    if n > FAST_DPSS_MIN:
+        return ("base", _base(float(nw), k))
+    return ("full", _tapers(n, float(nw), k)[0])
+
+
+def _eigen_kernel(rec: np.ndarray, js: tuple, c0: float, c1: float, nw: float, k: int, nfft: int,
+                  twosided: bool, seed: tuple | None = None) -> list:
+    """``|FFT(taper_j * (rec - c0 - c1 t))|**2`` for the tapers ``js`` of one channel's record."""
+    rec = rec.reshape(-1)
+    n = rec.size
+    if seed is not None and seed[0] == "full":
+        h = seed[1]
 
         def apply(j, src, out):
             return np.multiply(src, h[j], out=out, casting="unsafe")
-
-    checkpoint()
-    trend = trend_coefficients(x, detrend) if not np.iscomplexobj(x) else None
-    if np.iscomplexobj(x) and detrend != "none":
-        mean = np.array([np.mean(x[i], dtype=np.complex128) for i in range(c)])
-    single = x.dtype in (np.float32, np.complex64, np.int16, np.int8, np.uint8)
+    else:
+        if seed is not None:
+            seed_base(nw, k, seed[1])
+        apply = _record_tapers(n, nw, k)[0]
+    single = rec.dtype in (np.float32, np.int16, np.int8, np.uint8)
     work = np.dtype(np.float32 if single else np.float64)
-    if np.iscomplexobj(x):
-        work = np.dtype(np.complex64 if single else np.complex128)
     fft = scipy.fft.fft if twosided else scipy.fft.rfft
-    nfreq = nfft if twosided else nfft // 2 + 1
-    sk = np.empty((c, k, nfreq))
-
-    def run(item):
-        ch, j = item
+    out = []
+    for j in js:
         buf = _scratch("taper-record", (n,), work)
-        src = x[ch]
-        if trend is not None:
-            c0, c1 = trend[0][ch], trend[1][ch]
-            np.subtract(src, c0, out=buf, casting="unsafe")
-            if c1 != 0.0:
-                buf -= (c1 * np.arange(n)).astype(work, copy=False)
-        elif detrend != "none":
-            np.subtract(src, mean[ch], out=buf, casting="unsafe")
-        else:
-            np.copyto(buf, src, casting="unsafe")
+        np.subtract(rec, c0, out=buf, casting="unsafe")
+        if c1 != 0.0:
+            buf -= (c1 * np.arange(n)).astype(work, copy=False)
         apply(j, buf, buf)
         spec = fft(buf, n=nfft, workers=1)
-        dst = sk[ch, j]
-        np.multiply(spec.real, spec.real, out=dst)
+        dst = np.multiply(spec.real, spec.real)
         im = spec.imag
         np.multiply(im, im, out=im)
         dst += im
-        return None
+        out.append(dst)
+    return out
 
-    for _ in ordered_map(run, [(ch, j) for ch in range(c) for j in range(k)]):
-        pass
+
+def _whole_record_eigenspectra(x: Any, n: int, nw: float, k: int, nfft: int, detrend: str,
+                               twosided: bool) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """``|FFT(taper_j * detrend(x_c))|**2`` for every channel and taper of one whole record.
+
+    In memory: one item of work per (channel, taper), two at a time on the engine threads.
+    A dask array: one task per channel (the whole-record FFT needs the channel in one
+    place: it is read where the task runs, not in the client).  Each item writes its own
+    row, so the bits depend neither on the thread count nor on the scheduler.
+    Returns ``(sk (C, K, F), concentrations (K,), taper sums (K,))``; real data only.
+    """
+    c = x.shape[0]
+    _, lam, sums = _record_tapers(n, nw, k)
+    checkpoint()
+    c0, c1 = trend_coefficients(x, detrend)
+    nfreq = nfft if twosided else nfft // 2 + 1
+    sk = np.empty((c, k, nfreq))
+    if not is_lazy(x):
+        items = [(ch, j) for ch in range(c) for j in range(k)]
+
+        def run(item):
+            ch, j = item
+            sk[ch, j] = _eigen_kernel(x[ch], (j,), c0[ch], c1[ch], nw, k, nfft, twosided)[0]
+
+        for _ in ordered_map(run, items):
+            pass
+    else:
+        for ch in range(c):
+            (rows,) = map_spans(_eigen_kernel, x[ch : ch + 1], [(0, n)], [(tuple(range(k)), c0[ch], c1[ch])],
+                                (nw, k, nfft, twosided, _taper_seed(n, nw, k)))
+            sk[ch] = rows
     return sk, lam, sums
 
 
