@@ -5,7 +5,7 @@
 >>> spec = sb.Welch(segment_length=4096)(sig)            # doctest: +SKIP
 """
 
-from ._errors import Cancelled, InputError, SettingsError, SpecbenchError, SpecbenchWarning
+from ._errors import Cancelled, ComputeError, InputError, SettingsError, SpecbenchError, SpecbenchWarning
 from .estimators import (
     Autocorrelation,
     CancelToken,
@@ -32,6 +32,7 @@ __all__ = [
     "Autocorrelation",
     "Cancelled",
     "CancelToken",
+    "ComputeError",
     "Correlation",
     "Correlogram",
     "Covariance",

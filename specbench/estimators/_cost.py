@@ -1,16 +1,18 @@
 """Expected wall time of an estimate: a model of its work times this machine's speed.
 
 The work of each estimator is counted in two currencies: FFT work (``n log2 n`` per
-transform of length ``n``, per channel) and streamed sample passes (one read-modify-write
-of a sample in a block that stays in cache).  The seconds per unit of each are measured
-once per process on a small FFT and a small array pass (about 5 ms together), so the
-estimate follows the machine it runs on.  The weights of each estimator's terms were
-fitted on measured times (``tests/benchmarks/bench_cost.py`` prints the measured and
-expected times side by side; target within a factor 2 either way).
+transform of length ``n``, per channel) and streamed sample passes.  Their prices are
+measured once per process (about 0.1 s) on the engines themselves: a Welch pass over
+2**18 samples (segments of 1024: the in-cache price of segment work, thread hand-off
+included), one FFT of 2**20 samples with its |X|^2 (the out-of-cache price of long
+transforms) and a streamed moment pass; the price of an FFT of another length is
+interpolated between the two in log2(length).  The weights of the terms were fitted on
+measured times (``tests/benchmarks/bench_cost.py`` prints measured and expected times
+side by side; target within a factor 2 either way).
 
 An estimator class can supply its own model by defining
-``_cost(self, n, c, itemsize) -> dict(fft=..., passes=..., fixed=...)`` (FFT work units,
-sample passes and fixed seconds), which :func:`expected_seconds` then uses.
+``_cost(self, n, c, itemsize) -> dict(fft=[(count, length), ...], passes=..., fixed=...)``
+(transforms, sample passes and fixed seconds), which :func:`expected_seconds` then uses.
 """
 
 from __future__ import annotations
@@ -21,7 +23,6 @@ import time
 from typing import Any
 
 import numpy as np
-import scipy.fft
 
 __all__ = ["expected_seconds", "machine_speed"]
 
@@ -29,24 +30,43 @@ _LOCK = threading.Lock()
 _SPEED: dict[str, float] | None = None
 
 
+def _best(fn, repeats=3) -> float:
+    best = math.inf
+    for _ in range(repeats):
+        t0 = time.perf_counter()
+        fn()
+        best = min(best, time.perf_counter() - t0)
+    return best
+
+
 def machine_speed() -> dict[str, float]:
-    """Seconds per FFT work unit (``n log2 n``) and per sample pass, measured once."""
+    """Prices measured once: seconds per FFT work unit (short and long transforms) and
+    per streamed sample."""
     global _SPEED
     with _LOCK:
         if _SPEED is None:
-            a = np.random.default_rng(0).standard_normal((32, 4096))
-            w = np.hanning(4096)
-            buf = np.empty_like(a)
-            best_fft = best_pass = math.inf
-            for _ in range(5):
-                t0 = time.perf_counter()
-                scipy.fft.rfft(a, axis=-1, workers=1)
-                t1 = time.perf_counter()
-                np.multiply(a, w, out=buf)
-                t2 = time.perf_counter()
-                best_fft = min(best_fft, t1 - t0)
-                best_pass = min(best_pass, t2 - t1)
-            _SPEED = {"fft": best_fft / (a.size * 12.0), "pass": best_pass / a.size}
+            import scipy.fft
+
+            from ._engine import Moments, segment_power
+
+            rng = np.random.default_rng(0)
+            x = rng.standard_normal((1, 1 << 18))
+            w = np.hanning(1024)
+            nseg = ((1 << 18) - 1024) // 512 + 1
+            t_seg = _best(lambda: segment_power(x, window=w, step=512, nfft=1024, detrend="constant", twosided=False))
+            big = rng.standard_normal(1 << 20)
+
+            def long_fft():
+                s = scipy.fft.rfft(big, workers=1)
+                np.abs(s) ** 2
+
+            t_big = _best(long_fft)
+            t_pass = _best(lambda: Moments(x).add(x, 0, x.shape[1], False))
+            _SPEED = {
+                "fft_short": t_seg / (nseg * 1024 * 10.0),  # per n log2 n, segments of 1024, threaded
+                "fft_long": t_big / ((1 << 20) * 20.0),  # per n log2 n, one transform of 2**20
+                "pass": t_pass / x.size,
+            }
         return dict(_SPEED)
 
 
@@ -56,25 +76,34 @@ def _threads() -> int:
     return _THREADS
 
 
-def _fft(count: float, n: int) -> float:
-    return count * n * math.log2(max(2, n))
+def _fft_seconds(transforms, speed) -> float:
+    total = 0.0
+    for count, n, threaded in transforms:
+        lg = math.log2(max(2, n))
+        f = min(1.0, max(0.0, (lg - 14.0) / 6.0))  # in cache up to 2**14 samples
+        short = speed["fft_short"] * (1.0 if threaded else _threads())
+        long = speed["fft_long"] * (1.0 / _threads() if threaded else 1.0)
+        price = math.exp((1 - f) * math.log(short) + f * math.log(long))
+        total += count * n * lg * price
+    return total
 
 
 def _segment_model(n: int, c: int, nperseg: int, step: int, nfft: int, itemsize: int, passes: int = 1) -> dict:
-    """The streamed segment engine: per segment one window multiply (+ mean), one FFT, |X|^2."""
+    """The streamed segment engine: per segment detrend, window, FFT, |X|^2, summation."""
     nseg = max(0, (n - nperseg) // step + 1)
-    single = itemsize <= 4
-    fft = _fft(c * nseg * passes, nfft) * (0.55 if single else 1.0)
-    seg_passes = c * nseg * passes * (nperseg * 3 + (nfft // 2 + 1) * 2) * (0.6 if single else 1.0)
-    return dict(fft=fft / _threads(), passes=seg_passes / _threads() + 3.0 * c * n, fixed=2e-3)
+    single = 0.6 if itemsize <= 4 else 1.0
+    threaded = nseg > 1
+    return dict(fft=[(c * nseg * passes * single, nfft, threaded)], passes=2.0 * c * n, fixed=1e-3)
 
 
 def _lag_model(n: int, c: int, m: int, products: int) -> dict:
+    import scipy.fft
+
     blk = int(min(n, max(1 << 16, 4 * m)))
     p = scipy.fft.next_fast_len(blk + m, real=True)
     nblocks = math.ceil(n / blk)
-    fft = _fft(c * nblocks * 2.5 * products, p) / 2.0  # rfft of real data: half a complex FFT
-    return dict(fft=fft / _threads(), passes=c * n * 4.0 * products, fixed=2e-3)
+    # two real FFTs per block and product (an rfft is about half a complex FFT)
+    return dict(fft=[(c * nblocks * products * 1.2, p, nblocks > 1)], passes=c * n * 3.0 * products, fixed=1e-3)
 
 
 def _model(est: Any, n: int, c: int, itemsize: int) -> dict:
@@ -84,32 +113,40 @@ def _model(est: Any, n: int, c: int, itemsize: int) -> dict:
     kind = type(est).__name__
     if kind == "Welch":
         nperseg = min(est.segment_length, n)
-        return _segment_model(n, c, nperseg, nperseg - est.noverlap, est.nfft or nperseg, itemsize)
+        m = _segment_model(n, c, nperseg, nperseg - est.noverlap, est.nfft or nperseg, itemsize)
+        if est.average == "median":  # every segment's spectrum kept, then a median over them
+            nseg = (n - nperseg) // (nperseg - est.noverlap) + 1
+            m["passes"] += c * nseg * (nperseg // 2 + 1) * 12.0
+        return m
     if kind == "Periodogram":
         nfft = max(est.nfft or n, n)
         m = _segment_model(n, c, n, n, nfft, itemsize)
-        m["fft"] *= _threads()  # one FFT: no split over threads
+        m["passes"] += 14.0 * c * n  # one long transform: fresh memory for its output
         return m
     if kind == "Multitaper":
         from .spectral import _multitaper_cost
 
         return _multitaper_cost(est, n, c, itemsize)
     if kind in ("Correlogram", "Autocorrelation", "CrossCorrelation"):
-        fs = 1.0
         if kind == "Correlogram":
             m = est.max_lag
         else:
             from .correlation import _max_lag_samples
 
             try:
-                m = _max_lag_samples(kind, est.max_lag, fs, n)
+                m = _max_lag_samples(kind, est.max_lag, 1.0, n)
             except Exception:
                 m = max(1, n // 10)
         products = 4 if kind == "CrossCorrelation" else 1
         return _lag_model(n, c, min(m, max(1, n - 1)), products)
-    # an estimator without a model: a streamed pass per sample and a Welch-sized FFT load
+    if kind == "Covariance":  # lag products of every pair, up to ~16k lags (data-dependent)
+        m = _lag_model(n, c, 1 << 14, c * c)
+        m["passes"] *= 2
+        return m
+    # an estimator without a model: a Welch-sized load over the channels, twice
     seg = getattr(est, "segment_length", None) or min(n, 4096)
-    return _segment_model(n, c, min(seg, n), max(1, min(seg, n) // 2), min(seg, n), itemsize, passes=2)
+    seg = min(seg, n)
+    return _segment_model(n, c, seg, max(1, seg // 2), seg, itemsize, passes=2)
 
 
 def expected_seconds(est: Any, n: int, c: int = 1, dtype: Any = "float64") -> float:
@@ -121,9 +158,11 @@ def expected_seconds(est: Any, n: int, c: int = 1, dtype: Any = "float64") -> fl
             f"expected_seconds needs n_samples >= 1 and n_channels >= 1; got {n} and {c}. "
             "Pass the record's length and channel count."
         )
-    itemsize = np.dtype(dtype).itemsize
-    if np.dtype(dtype).kind == "c":
-        itemsize //= 2
+    dt = np.dtype(dtype)
+    itemsize = dt.itemsize // 2 if dt.kind == "c" else dt.itemsize
     m = _model(est, n, c, itemsize)
     speed = machine_speed()
-    return float(m.get("fixed", 0.0) + m.get("fft", 0.0) * speed["fft"] + m.get("passes", 0.0) * speed["pass"])
+    fft = m.get("fft", [])
+    if isinstance(fft, (int, float)):  # an FFT work count in n log2 n units, short-transform price
+        fft = [(float(fft) / (1024 * 10.0), 1024, True)]
+    return float(m.get("fixed", 0.0) + _fft_seconds(fft, speed) + m.get("passes", 0.0) * speed["pass"])

@@ -601,28 +601,29 @@ def _taper_dof(k: int, nfreq: int, near: np.ndarray, u: np.ndarray | None) -> np
 
 def _multitaper_cost(est: Any, n: int, c: int, itemsize: int) -> dict:
     """Work model of :class:`Multitaper` for :meth:`~Estimator.expected_seconds`."""
-    from ._cost import _fft, _segment_model, _threads
+    from ._cost import _segment_model
 
-    seg = est.segment_length or n
-    seg = min(seg, n)
+    seg = min(est.segment_length or n, n)
     nfft = max(est.nfft or seg, seg)
     k = est.n_tapers
     nseg = max(1, n // seg)
-    fixed = 2e-3
-    if (seg, float(est.bandwidth), k) not in _TAPERS_BUILT:
-        fixed += 0.25 if seg > FAST_DPSS_MIN else 0.0  # base tapers
-        fixed += (2.6e-6 * seg * k / 7) if seg <= FAST_DPSS_MIN else 0.0
-    taper_passes = (60.0 * seg * k / 2) if seg > FAST_DPSS_MIN else 0.0
     nfreq = nfft // 2 + 1
+    fixed, passes = 1e-3, 0.0
+    if (seg, float(est.bandwidth), k) not in _TAPERS_BUILT:
+        if seg > FAST_DPSS_MIN:  # short seed tapers, then one tridiagonal solve per taper
+            fixed += 0.12 * k / 7
+            passes += 40.0 * seg * k
+        else:  # scipy.signal.windows.dpss: about 1.6 us per sample for 7 tapers here
+            fixed += 1.6e-6 * seg * k / 7
     if nseg == 1:
-        fft = _fft(c * k, nfft) / _threads()
-        passes = c * k * (n * 4 + nfreq * 6) / _threads() + 4.0 * c * n
+        fft = [(c * k, nfft, True)]  # one transform per taper, two tapers at a time
+        passes += 4.0 * c * k * n
     else:
         m = _segment_model(n, c, seg, seg, nfft, itemsize, passes=k)
-        fft, passes = m["fft"], m["passes"]
-    adaptive = (c * k * nfreq * 60.0 / _threads()) if est.adaptive and k > 1 else 0.0
-    bands = 4.0 * c * nfreq
-    return dict(fft=fft, passes=passes + taper_passes + adaptive + bands, fixed=fixed)
+        fft, passes = m["fft"], passes + m["passes"]
+    if est.adaptive and k > 1:
+        passes += 25.0 * c * k * nfreq
+    return dict(fft=fft, passes=passes, fixed=fixed)
 
 
 @dataclass(frozen=True, kw_only=True, repr=False)
