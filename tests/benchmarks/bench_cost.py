@@ -86,7 +86,7 @@ def main():
         est(x, fs=1e5)
         cold = time.perf_counter() - t0
         warm_expected = est.expected_seconds(n)
-        warm = measure(lambda: est(x, fs=1e5))
+        warm = measure(lambda est=est, x=x: est(x, fs=1e5))
         for label, e, g in (("cold", cold_expected, cold), ("warm", warm_expected, warm)):
             ratios.append(g / e)
             print(f"{'Multitaper() whole record, ' + label:<60} {n:>6.0e} | {e:>10.3f} {g:>10.3f} | {g / e:>6.2f}",
