@@ -65,9 +65,9 @@ from .freeze import (  # noqa: E402
     read_settings,
     save_settings,
 )
-from .measure import MeasurementError  # noqa: E402
+from .measure import MeasurementError, advise  # noqa: E402
 
-__all__ += ["MeasurementError"]
+__all__ += ["MeasurementError", "advise"]
 
 __all__ += ["Signal", "demo", "demos", "load", "Workbench", "Settings", "load_settings", "read_settings",
             "save_settings"]

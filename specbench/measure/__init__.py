@@ -4,6 +4,7 @@ numpy/scipy only (no widgets).  The Spectrum methods (``spec.band_power`` ...) a
 wrappers over the functions here.
 """
 
+from ._advise import Advice, Candidate, advise
 from ._bands import band_power, band_rms, differentiate, iec_bands, integrate, noise_floor, octave_bands
 from ._results import Measurement, MeasurementError, OctaveBands, Tone, Tones
 from ._structure import structure_of
@@ -11,4 +12,4 @@ from ._tones import local_floor, tones
 
 __all__ = ["band_power", "band_rms", "noise_floor", "octave_bands", "integrate", "differentiate",
            "iec_bands", "structure_of", "tones", "local_floor", "Measurement", "MeasurementError", "OctaveBands",
-           "Tone", "Tones"]
+           "Tone", "Tones", "advise", "Advice", "Candidate"]
