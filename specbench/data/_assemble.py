@@ -50,7 +50,7 @@ def select_columns(available: Sequence[str], channels: Sequence[str | int] | str
     """Indices of the requested ``channels`` among ``available`` column names."""
     if channels is None:
         return list(range(len(available)))
-    if isinstance(channels, (str, int)) and not isinstance(channels, bool):
+    if isinstance(channels, (str, int, float, bool, np.generic)) or not hasattr(channels, "__iter__"):
         channels = [channels]
     picked = []
     for c in channels:
@@ -68,7 +68,10 @@ def select_columns(available: Sequence[str], channels: Sequence[str | int] | str
                                  f"{len(available)} channels {list(available)}.")
             picked.append(int(c) % len(available))
         else:
-            raise InputError(f"channels= takes names or indices; got {c!r}.")
+            kind = type(c).__name__
+            raise InputError(f"channels= takes names (str) or whole-number indices (int); got {c!r} "
+                             f"(a {kind}). A fractional or boolean index is never rounded: pass "
+                             f"an index such as 0 or a name from {list(available)}.")
     if len(set(picked)) != len(picked):
         raise InputError(f"channels={list(channels)} names a channel twice. Name each once.")
     return picked
@@ -125,8 +128,9 @@ def assemble(
         notes.append(f"fs {rate:.10g} Hz from {rec.fs_note}")
     else:
         raise InputError(
-            f"{rec.label} states no sample rate. Pass {rec.rate_hint}<samples per second>"
-            + (" or time_column=<name of the time column>" if "time" in rec.rate_hint else "")
+            f"{rec.label} states no sample rate. Pass "
+            + rec.rate_hint.replace("fs=", "fs=<samples per second>", 1).replace(
+                "time_column=", "time_column=<name of the time column>", 1)
             + "."
         )
     names = list(rec.names) if rec.names is not None else [f"ch{i}" for i in range(n_ch)]

@@ -35,7 +35,12 @@ CHANNEL_ATTRIBUTES = ("channels", "channel_names")
 
 # -- readers ----------------------------------------------------------------------------
 def _read_csv(path: Path, o: dict) -> Record:
-    dialect = sniff(path, delimiter=o["delimiter"], decimal=o["decimal"], comment=o["comment"])
+    skip = o["skip_rows"]
+    if isinstance(skip, bool) or not isinstance(skip, (int, np.integer)) or skip < 0:
+        raise InputError(f"skip_rows must be a whole number of lines >= 0 (the lines above the "
+                         f"header); got {skip!r}.")
+    dialect = sniff(path, delimiter=o["delimiter"], decimal=o["decimal"], comment=o["comment"],
+                    skip_rows=o["skip_rows"])
     names = list(dialect.names) if dialect.names else [f"ch{j}" for j in range(dialect.n_fields)]
     units = list(dialect.units) if dialect.units else [""] * dialect.n_fields
     if dialect.names is None and o["time_column"] is None:
@@ -154,6 +159,7 @@ def _read_wav(path: Path, o: dict) -> Record:
     from scipy.io import wavfile
 
     info = _wav_info(path)
+    _check_wav_length(path, info, None)
     try:
         with warnings.catch_warnings():
             warnings.simplefilter("ignore", wavfile.WavFileWarning)
@@ -162,6 +168,7 @@ def _read_wav(path: Path, o: dict) -> Record:
         raise InputError(f"{path.name} could not be read as a WAV file ({exc}). Export it "
                          "as PCM or IEEE-float WAV, or load the samples another way.") from exc
     frames = raw[:, np.newaxis] if raw.ndim == 1 else raw  # (samples, channels)
+    _check_wav_length(path, info, frames.shape[0])
     kind = raw.dtype.kind
     if kind in "iu":
         offset, scale, out = _PCM_SCALE[raw.dtype.str[1:]]
@@ -188,6 +195,26 @@ def _read_wav(path: Path, o: dict) -> Record:
                   where=lambda i: f"frame {i}")
 
 
+def _check_wav_length(path: Path, info: dict, got: int | None) -> None:
+    """Refuse a WAV whose header claims more frames than the file holds (a cut copy)."""
+    align = info.get("align") or max(1, info["channels"] * info["bits"] // 8)
+    size = info["data_bytes"]
+    if size in (0xFFFFFFFF, 0):  # streaming writers leave the size unset; RF64 keeps it elsewhere
+        return
+    claimed = size // align
+    present = max(0, info["file_bytes"] - info["data_offset"]) // align
+    if present < claimed or (got is not None and got < claimed):
+        held = present if got is None else min(got, present)
+        raise InputError(
+            f"{path.name}: its header claims {claimed:,} frames ({size:,} bytes of samples) but "
+            f"the file holds {held:,} ({100 * held / claimed:.3g} %): the file is cut short (an "
+            "interrupted copy or recording). Copy or export it again; to analyse the frames "
+            f"that are there, load them as raw binary: format='raw', offset={info['data_offset']}, "
+            f"n_channels={info['channels']}, fs={info['rate']} and the sample dtype "
+            "(e.g. dtype='<i2' for 16-bit PCM).",
+        )
+
+
 def _wav_info(path: Path) -> dict:
     """Bits per sample and format of a RIFF/WAVE file (only what messages need)."""
     with open(path, "rb") as f:
@@ -196,16 +223,31 @@ def _wav_info(path: Path) -> dict:
             raise InputError(f"{path.name} is not a WAV file (no RIFF/WAVE header). Check the "
                              "file, or give format= for another kind of file.")
         endian = ">" if head[:4] == b"RIFX" else "<"
+        info: dict = {}
         while True:
             chunk = f.read(8)
             if len(chunk) < 8:
-                raise InputError(f"{path.name} has no 'fmt ' chunk: the WAV file is cut "
+                missing = "'data'" if "tag" in info else "'fmt '"
+                raise InputError(f"{path.name} has no {missing} chunk: the WAV file is cut "
                                  "short or damaged.")
             cid, size = chunk[:4], struct.unpack(endian + "I", chunk[4:])[0]
             if cid == b"fmt ":
                 body = f.read(size)
-                tag, channels, rate, _, _, bits = struct.unpack(endian + "HHIIHH", body[:16])
-                return {"tag": tag, "channels": channels, "rate": rate, "bits": bits}
+                if len(body) < 16:
+                    raise InputError(f"{path.name} has a 'fmt ' chunk of {len(body)} bytes (16 "
+                                     "needed): the WAV file is cut short or damaged.")
+                tag, channels, rate, _, align, bits = struct.unpack(endian + "HHIIHH", body[:16])
+                info = {"tag": tag, "channels": channels, "rate": rate, "bits": bits,
+                        "align": align}
+                f.seek(size & 1, os.SEEK_CUR)
+                continue
+            elif cid == b"data":
+                if "tag" not in info:
+                    raise InputError(f"{path.name} has its 'data' chunk before the 'fmt ' "
+                                     "chunk: the WAV file is damaged.")
+                info["data_bytes"], info["data_offset"] = size, f.tell()
+                info["file_bytes"] = os.fstat(f.fileno()).st_size
+                return info
             f.seek(size + (size & 1), os.SEEK_CUR)
 
 
@@ -374,7 +416,7 @@ def _optional(module: str, extra: str, what: str):
 _Reader = Callable[[Path, dict], Record]
 #: format -> (reader, options that apply to it besides the common ones)
 FORMATS: dict[str, tuple[_Reader, frozenset[str]]] = {
-    "csv": (_read_csv, frozenset({"time_column", "delimiter", "decimal", "comment"})),
+    "csv": (_read_csv, frozenset({"time_column", "delimiter", "decimal", "comment", "skip_rows"})),
     "npy": (_read_npy, frozenset({"axis"})),
     "npz": (_read_npz, frozenset({"key", "axis", "time_column"})),
     "wav": (_read_wav, frozenset()),
@@ -389,7 +431,7 @@ _DEFAULTS = {"fs": None, "time_column": None, "channels": None, "unit": None,
              "on_gap": "error", "max_jitter": DEFAULT_MAX_JITTER, "format": None, "key": None,
              "axis": -1, "delimiter": None, "decimal": None, "comment": None,
              "fs_attribute": None, "dtype": None, "n_channels": 1, "interleaved": True,
-             "offset": 0}
+             "offset": 0, "skip_rows": 0}
 
 
 def load(
@@ -407,6 +449,7 @@ def load(
     delimiter: str | None = None,
     decimal: str | None = None,
     comment: str | None = None,
+    skip_rows: int = 0,
     fs_attribute: str | None = None,
     dtype: Any = None,
     n_channels: int = 1,
@@ -465,6 +508,13 @@ def load(
     delimiter, decimal, comment : str, optional
         Text files: override the detected delimiter (``","``, ``";"``, ``"\\t"``, ``" "``
         for runs of spaces), decimal mark (``"."`` or ``","``) and comment prefix.
+        A file of one number per line written with a decimal comma (``0,125``) is read
+        as one column; when its lines could also be two columns of integers (``12,5``)
+        and nothing tells which, the load is refused: give ``decimal=","`` or
+        ``delimiter=","``.
+    skip_rows : int
+        Text files: lines at the top not to read (metadata above the header), default 0.
+        A line is taken for the header or units row only when no cell of it is a number.
     fs_attribute : str, optional
         HDF5: the attribute holding the rate in Hz.  By default the dataset and then its
         groups are searched for ``fs``, ``sample_rate``, ``sampling_rate``,

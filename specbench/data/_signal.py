@@ -105,7 +105,17 @@ class Signal:
         truth: Any = None,
         start: Any = None,
     ) -> None:
-        arr = _as_2d(data)
+        arr, masked = _as_2d(data)
+        if not selection and origin is None and truth is None and arr.shape[0] > arr.shape[1]:
+            raise InputError(
+                f"Signal data of shape {arr.shape} has more channels ({arr.shape[0]:,}) than "
+                f"samples ({arr.shape[1]:,}): samples go on the last axis, so this is probably a "
+                f"(samples, channels) array. Pass data.T (shape {arr.shape[::-1]})."
+            )
+        if masked:
+            source = (f"{source}; " if source else "") + (
+                f"{masked:,} masked sample{'s' if masked != 1 else ''} of the masked array "
+                "set to NaN (gaps)")
         self._data = arr
         self._fs = _check_rate(fs)
         self._channels = _check_channels(channels, arr.shape[0])
@@ -324,10 +334,22 @@ class Signal:
 
 
 # -- validation (the one place) ---------------------------------------------------------
-def _as_2d(data: Any) -> np.ndarray:
+def _as_2d(data: Any) -> tuple[np.ndarray, int]:
+    """The read-only 2-D view of ``data`` and the number of masked samples made NaN.
+
+    A numpy masked array: its masked samples become gaps (NaN, in a float copy), as
+    ``on_gap="fill"`` makes missing samples; estimators then refuse them unless told to
+    skip them (``gaps="skip"``).  The mask is never ignored."""
     if isinstance(data, Signal):
         raise InputError("data is already a Signal; use signal.with_fs(...) or "
                          "signal.channel(...) to derive a new one.")
+    masked = 0
+    if isinstance(data, np.ma.MaskedArray):
+        mask = np.ma.getmaskarray(data)
+        masked = int(mask.sum())
+        if masked and data.dtype.kind in "biu":
+            data = data.astype(np.float64)  # NaN needs a float
+        data = data.filled(np.nan) if masked else np.asarray(data.data)
     lazy = type(data).__module__.split(".")[0] == "dask" and hasattr(data, "chunks")
     arr = data if isinstance(data, np.ndarray) or lazy else np.asarray(data)
     if arr.dtype.kind not in "biufc":
@@ -349,13 +371,16 @@ def _as_2d(data: Any) -> np.ndarray:
             "channel with at least one sample (samples on the last axis)."
         )
     if lazy:  # a dask array stays lazy: estimators read it block by block
-        return arr
+        return arr, masked
     view = arr.view()  # keeps the memmap subclass; the caller's array stays writeable
     view.flags.writeable = False
-    return view
+    return view, masked
 
 
 def _check_rate(fs: Any) -> float:
+    if isinstance(fs, (bool, np.bool_)):
+        raise InputError(f"The sample rate fs must be a number in Hz; got fs={bool(fs)} (a bool, "
+                         "not a rate). Pass fs=<samples per second>, e.g. fs=1000.0.")
     try:
         value = float(fs)
     except (TypeError, ValueError):

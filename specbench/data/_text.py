@@ -35,6 +35,8 @@ _MISSING_SET = frozenset(MISSING)
 _UNIT_RE = re.compile(r"^(?P<name>.*?)\s*[\[(](?P<unit>[^\[\]()]*)[\])]\s*$")
 _DECIMAL_COMMA_RE = re.compile(r"^[+-]?\d*,\d+(?:[eE][+-]?\d+)?$")
 _DECIMAL_POINT_RE = re.compile(r"^[+-]?\d*\.\d+(?:[eE][+-]?\d+)?$")
+# a whole line that is one number written with a decimal comma, or an integer
+_ONE_COMMA_NUMBER_RE = re.compile(r"^(?P<int>[+-]?\d+)(?:,(?P<frac>\d+))?(?P<exp>[eE][+-]?\d+)?$")
 
 
 @dataclass(frozen=True)
@@ -51,7 +53,8 @@ class Dialect:
     n_fields: int
 
     def describe(self) -> str:
-        parts = [f"delimiter {_DELIMITER_NAMES.get(self.delimiter, repr(self.delimiter))}"]
+        parts = ([f"delimiter {_DELIMITER_NAMES.get(self.delimiter, repr(self.delimiter))}"]
+                 if self.n_fields > 1 else ["one column"])
         if self.decimal != ".":
             parts.append(f"decimal {self.decimal!r}")
         parts.append("header" if self.names else "no header")
@@ -94,8 +97,14 @@ def split_unit(name: str) -> tuple[str, str]:
 
 # -- detection ------------------------------------------------------------------------
 def sniff(path: Path, *, delimiter: str | None = None, decimal: str | None = None,
-          comment: str | None = None) -> Dialect:
-    """Find the dialect of the text file at ``path`` from its first lines."""
+          comment: str | None = None, skip_rows: int = 0) -> Dialect:
+    """Find the dialect of the text file at ``path`` from its first lines.
+
+    ``skip_rows`` physical lines at the top (metadata above the header) are not read.
+    A line is taken for the header (or, below it, the units) only when no cell of it is a
+    number and some cell is text other than a missing-value marker (``NA``, empty):
+    a first data row with empty or ``NA`` cells is data, never a header.
+    """
     head = _read_head(path)
     encoding, text = _decode(head, path)
     lines = text.replace("\r\n", "\n").replace("\r", "\n").split("\n")
@@ -104,8 +113,8 @@ def sniff(path: Path, *, delimiter: str | None = None, decimal: str | None = Non
     if comment is None:
         starts = {ln.lstrip()[:1] for ln in lines if ln.strip()}
         comment = next((c for c in _COMMENTS if c in starts), None)
-    meaningful = [(i, ln) for i, ln in enumerate(lines[:_SNIFF_LINES * 4])
-                  if ln.strip() and not (comment and ln.lstrip().startswith(comment))]
+    meaningful = [(i, ln) for i, ln in enumerate(lines[:skip_rows + _SNIFF_LINES * 4])
+                  if i >= skip_rows and ln.strip() and not (comment and ln.lstrip().startswith(comment))]
     if not meaningful:
         what = "is empty" if not text.strip() else "holds only comment lines"
         raise InputError(
@@ -113,8 +122,16 @@ def sniff(path: Path, *, delimiter: str | None = None, decimal: str | None = Non
             "was exported completely."
         )
     sample = [ln for _, ln in meaningful[:_SNIFF_LINES]]
+    if decimal == "," and delimiter == ",":
+        raise InputError(f"{path.name}: delimiter=',' and decimal=',' cannot both be a comma. "
+                         "Give the delimiter that separates the columns (';', tab, ' ').")
+    one_column = False
+    if delimiter is None and decimal in (None, ","):
+        one_column = _one_column_decimal_comma(sample, path.name, decimal)
+        if one_column:
+            delimiter, decimal = _absent_delimiter(sample), ","
     if delimiter is None:
-        delimiter = _find_delimiter(sample)
+        delimiter = _find_delimiter(sample, exclude="," if decimal == "," else "")
     elif delimiter in (" ", r"\s+"):
         delimiter = None
     rows = [_split(ln, delimiter) for ln in sample]
@@ -122,9 +139,10 @@ def sniff(path: Path, *, delimiter: str | None = None, decimal: str | None = Non
         decimal = _find_decimal(rows, delimiter)
     numeric = [sum(_is_number(c, decimal) for c in r) for r in rows]
     header_rows = 0
-    if numeric[0] == 0 or (len(rows) > 1 and numeric[0] < numeric[1]):
+    if _is_text_row(rows[0], decimal):
         header_rows = 1
-        if len(rows) > 2 and numeric[1] == 0 and numeric[2] > 0 and len(rows[1]) == len(rows[0]):
+        if (len(rows) > 2 and _is_text_row(rows[1], decimal) and numeric[2] > 0
+                and len(rows[1]) == len(rows[0])):
             header_rows = 2  # a line of units below the names
     data_rows = rows[header_rows:]
     if not data_rows:
@@ -140,7 +158,8 @@ def sniff(path: Path, *, delimiter: str | None = None, decimal: str | None = Non
             f"{_clip(sample[header_rows])!r}, with no number in it "
             f"(delimiter {_DELIMITER_NAMES.get(delimiter, repr(delimiter))}, decimal "
             f"{decimal!r}). Load a delimited file of numbers (CSV, TSV), or give "
-            "delimiter=/decimal= if the detection is wrong, or format= for a binary file."
+            "delimiter=/decimal= if the detection is wrong, skip_rows= for lines of metadata "
+            "above the header, or format= for a binary file."
         )
     n_fields = len(data_rows[0])
     names = units = None
@@ -151,7 +170,8 @@ def sniff(path: Path, *, delimiter: str | None = None, decimal: str | None = Non
                 f"{path.name}: the header on line {meaningful[0][0] + 1} has {len(fields)} "
                 f"fields but the first data line {meaningful[header_rows][0] + 1} has "
                 f"{n_fields} (delimiter {_DELIMITER_NAMES.get(delimiter, repr(delimiter))}). "
-                "Make them agree, or give delimiter= if the detection is wrong."
+                "Make them agree, give delimiter= if the detection is wrong, or skip_rows= "
+                "to pass over lines of metadata above the header."
             )
         pairs = [split_unit(f) for f in fields]
         names = tuple(n or f"col{j}" for j, (n, _) in enumerate(pairs))
@@ -160,6 +180,55 @@ def sniff(path: Path, *, delimiter: str | None = None, decimal: str | None = Non
             units = tuple(u.strip("[]() ") for u in rows[1])
     skip = meaningful[header_rows][0]
     return Dialect(encoding, delimiter, decimal, comment, skip, names, units, n_fields)
+
+
+def _is_text_row(cells: list[str], decimal: str) -> bool:
+    """A header or units row: no cell is a number, and some cell is text that is not a
+    missing-value marker (a row of empty or ``NA`` cells is a row of missing data)."""
+    return (not any(_is_number(c, decimal) for c in cells)
+            and any(c.strip() not in _MISSING_SET for c in cells))
+
+
+def _one_column_decimal_comma(sample: list[str], name: str, decimal: str | None) -> bool:
+    """True for a file of one number per line written with a decimal comma (``0,125``).
+
+    Lines such as ``12,5`` read as one decimal-comma number or as two integers; the file is
+    taken as one column when some line shows it (a header of one name, a line with no comma, an exponent, a
+    fraction with a leading zero such as ``3,05``, a part ``-0``, or every integer part 0).
+    A file that could be either is refused with both readings, unless decimal=',' was given.
+    """
+    lines = [ln.strip() for ln in sample]
+    k = 0
+    while (k < min(2, len(lines)) and not _ONE_COMMA_NUMBER_RE.match(lines[k])
+           and any(ch.isalpha() for ch in lines[k])):
+        k += 1  # a header (and units) line
+    if k and len(next(csv.reader([lines[0]]))) > 1:
+        return False  # a header of several comma-separated names: a comma-delimited table
+    header_says = k > 0  # a header of one name over lines with one comma: one column
+    lines = [ln for ln in lines[k:] if ln not in _MISSING_SET]
+    matches = [_ONE_COMMA_NUMBER_RE.match(ln) for ln in lines]
+    if not lines or not all(matches) or not any(m.group("frac") is not None for m in matches):
+        return False
+    if decimal == "," or header_says:
+        return True
+    ints = [m.group("int") for m in matches]
+    fracs = [m.group("frac") for m in matches if m.group("frac") is not None]
+    if (len(fracs) < len(matches) or any(m.group("exp") for m in matches)
+            or any(len(f) > 1 and f[0] == "0" for f in fracs)
+            or any(i.lstrip("+-") == "0" and i[0] in "+-" for i in ints)
+            or all(i.lstrip("+-") == "0" for i in ints)):
+        return True
+    raise InputError(
+        f"{name}: lines such as {lines[0]!r} read either as one column of numbers with a "
+        "decimal comma or as two columns of integers, and nothing in the file tells which. "
+        "Give decimal=',' for one column of decimal-comma numbers, or delimiter=',' for two "
+        "columns."
+    )
+
+
+def _absent_delimiter(sample: list[str]) -> str:
+    """A delimiter that occurs on no line (one-column files)."""
+    return next((c for c in ("\t", ";", "|") if not any(c in ln for ln in sample)), "\t")
 
 
 def _read_head(path: Path) -> bytes:
@@ -183,14 +252,18 @@ def _decode(head: bytes, path: Path) -> tuple[str, str]:
     return "latin-1", head.decode("latin-1")
 
 
-def _find_delimiter(sample: list[str]) -> str | None:
+def _find_delimiter(sample: list[str], exclude: str = "") -> str | None:
     for cand in _DELIMITERS:
+        if cand in exclude:
+            continue
         counts = [_count_fields(ln, cand) for ln in sample]
         if counts[0] > 1 and _consistent(counts):
             return cand
     counts = [len(ln.split()) for ln in sample]
     if counts[0] > 1 and _consistent(counts):
         return None
+    if "," in exclude:
+        return _absent_delimiter(sample)
     return ","  # one column (or ragged rows, which the parser then reports)
 
 
@@ -280,7 +353,9 @@ def _read_pandas(path: Path, dialect: Dialect, text_columns: tuple[int, ...]) ->
         sep=r"\s+" if dialect.delimiter is None else dialect.delimiter,
         decimal=dialect.decimal, comment=dialect.comment, header=None,
         skiprows=dialect.skip, names=list(range(dialect.n_fields)),
-        na_values=list(MISSING), keep_default_na=False, skip_blank_lines=True,
+        na_values=list(MISSING), keep_default_na=False,
+        # one column: an empty line is an empty cell (a missing sample), never dropped
+        skip_blank_lines=dialect.n_fields > 1,
         encoding=dialect.encoding, engine="c",
         dtype={j: str for j in text_columns} or None,
     )
@@ -295,6 +370,8 @@ def _read_pandas(path: Path, dialect: Dialect, text_columns: tuple[int, ...]) ->
         raise InputError(f"{path.name} could not be read as a table ({dialect.describe()}): "
                          f"{exc}. Give delimiter=, decimal= or comment= if the detection "
                          "is wrong.") from exc
+    if dialect.n_fields == 1 and frame.shape[0] and bool(frame[0].isna().any()):
+        return _scan(path, dialect, text_columns)  # tells empty lines from comment lines
     columns = []
     for j in range(dialect.n_fields):
         col = frame[j]
@@ -319,15 +396,22 @@ def _scan(path: Path, dialect: Dialect, text_columns: tuple[int, ...]) -> list[n
     """Read the file line by line; raise :class:`InputError` at the first bad line."""
     n = dialect.n_fields
     values: list[list] = [[] for _ in range(n)]
+    blank_run = 0  # empty lines of a one-column file not yet known to be inside the data
     with open(path, encoding=dialect.encoding, newline="") as f:
         for number, line in enumerate(f, start=1):
             if number <= dialect.skip:
                 continue
             text = line.rstrip("\r\n")
+            if not text.strip() and n == 1:
+                blank_run += 1
+                continue
             if dialect.comment and dialect.comment in text:
                 text = text[:text.index(dialect.comment)]
             if not text.strip():
                 continue
+            if blank_run:  # empty lines between samples: missing samples, kept in place
+                values[0].extend([np.nan] * blank_run)
+                blank_run = 0
             cells = _split(text, dialect.delimiter)
             if len(cells) != n:
                 raise InputError(
@@ -347,12 +431,21 @@ def _scan(path: Path, dialect: Dialect, text_columns: tuple[int, ...]) -> list[n
                             f"{path.name}: line {number}, column {_column_name(dialect, j)}, "
                             f"holds {cell!r}, which is not a number (decimal mark "
                             f"{dialect.decimal!r}). Repair the cell, or choose the numeric "
-                            "columns with channels=[...]."
+                            "columns with channels=[...]." + _top_hint(number, dialect, cell)
                         )
                     x = np.nan
                 values[j].append(x)
     return [np.asarray(v, dtype=object if j in text_columns else np.float64)
             for j, v in enumerate(values)]
+
+
+def _top_hint(number: int, dialect: Dialect, cell: str) -> str:
+    """Near the top of the file, text in a data cell is often metadata above the header."""
+    if number - dialect.skip > 5 or not any(ch.isalpha() for ch in cell):
+        return ""
+    return (f" If line {number} and the lines above it are metadata or a header, pass "
+            "skip_rows= (the number of lines above the header); a header row is one with no "
+            "number in it.")
 
 
 def _column_name(dialect: Dialect, j: int) -> str:
@@ -369,14 +462,19 @@ def _header_text(dialect: Dialect) -> str:
 
 
 def _data_line_numbers(path: Path, dialect: Dialect) -> np.ndarray:
-    numbers = []
+    numbers, blanks = [], []
     with open(path, encoding=dialect.encoding, newline="") as f:
         for number, line in enumerate(f, start=1):
             if number <= dialect.skip:
                 continue
             text = line
+            if dialect.n_fields == 1 and not text.strip():
+                blanks.append(number)  # one column: an empty line inside the data is a sample
+                continue
             if dialect.comment and dialect.comment in text:
                 text = text[:text.index(dialect.comment)]
             if text.strip():
+                numbers.extend(blanks)
+                blanks = []
                 numbers.append(number)
     return np.asarray(numbers, dtype=np.int64)

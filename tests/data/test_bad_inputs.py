@@ -82,8 +82,8 @@ class TestTextFiles:
 
     def test_no_rate(self, tmp_path):
         _raises(_csv(tmp_path, "x,y\n1,2\n3,4\n5,6\n"),
-                r"bad.csv states no sample rate\. Pass fs= or time_column=<samples per second> "
-                r"or time_column=<name of the time column>")
+                r"bad.csv states no sample rate\. Pass fs=<samples per second> or "
+                r"time_column=<name of the time column>\.$")
 
     def test_unknown_channel(self, tmp_path):
         _raises(_csv(tmp_path, "t,x\n0,1\n1,2\n2,3\n"),
@@ -306,7 +306,7 @@ class TestHdf5:
         path = tmp_path / "daq.h5"
         with h5py.File(path, "w") as f:
             f.create_dataset("x", data=np.zeros(10))
-        _raises(path, r"daq.h5:/x states no sample rate\. Pass fs= \(or store an 'fs' "
+        _raises(path, r"daq.h5:/x states no sample rate\. Pass fs=<samples per second> \(or store an 'fs' "
                 "attribute on the dataset\\)")
 
     def test_h5py_missing_names_the_extra(self, tmp_path, monkeypatch):
@@ -339,8 +339,8 @@ class TestPaths:
 
 class TestFrames:
     def test_range_index_needs_a_rate(self):
-        with pytest.raises(InputError, match=r"the DataFrame states no sample rate\. Pass fs= "
-                                             r"or a time index"):
+        with pytest.raises(InputError, match=r"the DataFrame states no sample rate\. Pass "
+                                             r"fs=<samples per second> or a time index"):
             Signal.from_pandas(pd.DataFrame({"x": np.zeros(10)}))
 
     def test_non_numeric_column(self):
@@ -385,3 +385,146 @@ class TestMore:
         with pytest.raises(InputError, match=r"enc.csv is not valid utf-8-sig text at byte "
                                              r"\d+ .*Re-save it as UTF-8"):
             load(path)
+
+
+class TestRowsAreNeverLost:
+    """Every row of a table is loaded or named in an error; a row is a header or units row
+    only when no cell of it is a number (and some cell is text other than a missing marker)."""
+
+    def test_one_column_decimal_comma_is_one_channel(self, tmp_path):
+        sig = load(_csv(tmp_path, "0,125\n0,250\n-0,375\n0,5\n"), fs=10.0)
+        assert sig.channels == ("ch0",)
+        np.testing.assert_array_equal(sig.data[0], [0.125, 0.25, -0.375, 0.5])
+        assert "one column, decimal ','" in sig.source
+
+    def test_one_column_decimal_comma_under_a_one_name_header(self, tmp_path):
+        sig = load(_csv(tmp_path, "accel [g]\n0,125\n0,250\n1,5\n"), fs=10.0)
+        assert sig.channels == ("accel",) and sig.unit == "g"
+        np.testing.assert_array_equal(sig.data[0], [0.125, 0.25, 1.5])
+
+    def test_decimal_comma_or_two_integer_columns_is_refused(self, tmp_path):
+        path = _csv(tmp_path, "12,5\n13,25\n14,75\n")
+        _raises(path, r"bad.csv: lines such as '12,5' read either as one column of numbers "
+                      r"with a decimal comma or as two columns of integers.*Give decimal=',' "
+                      r"for one column.*or delimiter=',' for two columns", fs=10.0)
+        np.testing.assert_array_equal(load(path, fs=10.0, decimal=",").data[0], [12.5, 13.25, 14.75])
+        assert load(path, fs=10.0, delimiter=",").data.tolist() == [[12, 13, 14], [5, 25, 75]]
+
+    def test_both_commas_refused(self, tmp_path):
+        _raises(_csv(tmp_path, "1,5\n2,5\n3,5\n"), r"delimiter=',' and decimal=',' cannot both "
+                r"be a comma", fs=10.0, delimiter=",", decimal=",")
+
+    def test_na_row_is_data_not_units(self, tmp_path):
+        path = _csv(tmp_path, "a,b\nNA,NA\n1,2\n3,4\n")
+        _raises(path, r"bad.csv has 2 non-finite values.*first at line 2 of bad.csv", fs=10.0)
+        sig = load(path, fs=10.0, on_gap="fill")
+        assert sig.channels == ("a", "b") and sig.unit == ""
+        np.testing.assert_array_equal(sig.data, [[np.nan, 1, 3], [np.nan, 2, 4]])
+
+    def test_first_data_row_with_an_empty_cell_is_data(self, tmp_path):
+        path = _csv(tmp_path, "a,b\n,1\n1,2\n3,4\n")
+        _raises(path, r"non-finite value.*first at line 2 of bad.csv channel 'a'", fs=10.0)
+        np.testing.assert_array_equal(load(path, fs=10.0, on_gap="fill").data,
+                                      [[np.nan, 1, 3], [1, 2, 4]])
+
+    def test_headerless_first_row_with_an_empty_cell_is_kept(self, tmp_path):
+        path = _csv(tmp_path, ",1\n1,2\n3,4\n")
+        _raises(path, r"first at line 1 of bad.csv channel 'ch0'", fs=10.0)
+        sig = load(path, fs=10.0, on_gap="fill")
+        assert sig.channels == ("ch0", "ch1") and sig.n_samples == 3
+
+    def test_partly_numeric_first_row_is_named_not_taken_for_a_header(self, tmp_path):
+        _raises(_csv(tmp_path, "time,1\n0,2\n0.1,3\n0.2,4\n"),
+                r"bad.csv: line 1, column 1, holds 'time', which is not a number.*skip_rows=.*a "
+                r"header row is one with no number in it", fs=10.0)
+
+    def test_empty_line_inside_a_one_column_file_is_a_missing_sample(self, tmp_path):
+        path = _csv(tmp_path, "1\n2\n\n3\n4\n\n\n")
+        _raises(path, r"bad.csv has 1 non-finite value .*first at line 3 of bad.csv", fs=10.0)
+        sig = load(path, fs=10.0, on_gap="fill")
+        np.testing.assert_array_equal(sig.data[0], [1, 2, np.nan, 3, 4])  # later samples stay put
+
+    def test_comment_line_inside_a_one_column_file_is_not_a_sample(self, tmp_path):
+        sig = load(_csv(tmp_path, "1\n2\n# pause\n\n3\n4\n"), fs=10.0, on_gap="fill")
+        np.testing.assert_array_equal(sig.data[0], [1, 2, np.nan, 3, 4])
+
+    def test_metadata_above_the_header_and_skip_rows(self, tmp_path):
+        path = _csv(tmp_path, "Device: X1\nOperator: J\ntime,a\n0,1\n0.1,2\n0.2,3\n")
+        msg = _raises(path, r"bad.csv: line 2, column 'Device: X1', holds 'Operator: J'.*If line 2 "
+                            r"and the lines above it are metadata or a header, pass skip_rows=")
+        assert "skip_rows" in msg
+        sig = load(path, skip_rows=2)
+        assert sig.channels == ("a",) and sig.fs == 10.0
+        np.testing.assert_array_equal(sig.data[0], [1, 2, 3])
+
+    @pytest.mark.parametrize("bad", [-1, 1.5, True, "2"])
+    def test_bad_skip_rows(self, tmp_path, bad):
+        _raises(_csv(tmp_path, "1\n2\n3\n"), r"skip_rows must be a whole number of lines >= 0",
+                fs=10.0, skip_rows=bad)
+
+
+class TestTruncatedWav:
+    def _wav(self, tmp_path, keep):
+        path = tmp_path / "full.wav"
+        x = (np.random.default_rng(3).standard_normal((4000, 2)) * 3000).astype("<i2")
+        wavfile.write(path, 8000, x)
+        cut = tmp_path / "cut.wav"
+        cut.write_bytes(path.read_bytes()[:keep])
+        return cut
+
+    @pytest.mark.parametrize("keep", [44 + 4 * 1000, 8022])
+    def test_header_claims_more_frames_than_present(self, tmp_path, keep):
+        path = self._wav(tmp_path, keep)
+        held = (keep - 44) // 4
+        _raises(path, rf"cut.wav: its header claims 4,000 frames \(16,000 bytes of samples\) but "
+                      rf"the file holds {held:,} .*cut short.*format='raw', offset=44, "
+                      r"n_channels=2, fs=8000")
+
+
+class TestSignalArguments:
+    @pytest.mark.parametrize("flag", [True, False, np.True_])
+    def test_fs_bool_refused(self, flag):
+        with pytest.raises(InputError, match=r"fs must be a number in Hz; got fs=(np\.)?(True|False)"
+                                             r" \(a bool, not a rate\)"):
+            Signal(np.zeros(100), fs=flag)
+
+    def test_load_fs_bool_refused(self, tmp_path):
+        _raises(_csv(tmp_path, "1\n2\n3\n"), r"got fs=True \(a bool, not a rate\)", fs=True)
+
+    @pytest.mark.parametrize("index", [0.5, np.float64(1.0), [0.5], True])
+    def test_fractional_channel_index_refused(self, tmp_path, index):
+        path = tmp_path / "a.npy"
+        np.save(path, np.zeros((3, 100)))
+        _raises(path, r"channels= takes names \(str\) or whole-number indices \(int\); got .* "
+                      r"is never rounded", fs=10.0, channels=index)
+
+    def test_signal_channel_float_refused(self):
+        sig = Signal(np.zeros((3, 100)), fs=10.0)
+        with pytest.raises(InputError, match=r"A channel is chosen by name \(str\) or index "
+                                             r"\(int\); got 0.5 of type float"):
+            sig.channel(0.5)
+
+    def test_transposed_array_is_named(self):
+        with pytest.raises(InputError, match=r"Signal data of shape \(10000, 3\) has more channels "
+                                             r"\(10,000\) than samples \(3\).*probably a \(samples, "
+                                             r"channels\) array\. Pass data\.T \(shape \(3, 10000\)\)"):
+            Signal(np.zeros((10000, 3)), fs=100.0)
+
+    def test_masked_samples_become_gaps(self):
+        x = np.ma.masked_array(np.arange(10.0), mask=[0, 1, 0, 0, 1, 0, 0, 0, 0, 0])
+        sig = Signal(x, fs=10.0)
+        np.testing.assert_array_equal(sig.data[0], [0, np.nan, 2, 3, np.nan, 5, 6, 7, 8, 9])
+        assert "2 masked samples of the masked array set to NaN (gaps)" in sig.source
+        assert not np.isnan(x.data).any()  # the caller's array is not changed
+        ints = Signal(np.ma.masked_array(np.arange(10), mask=[1] + [0] * 9), fs=10.0)
+        assert ints.data.dtype == np.float64 and np.isnan(ints.data[0, 0])
+        plain = Signal(np.ma.masked_array(np.arange(10)), fs=10.0)
+        assert plain.data.dtype.kind == "i" and "masked" not in plain.source
+
+    def test_masked_samples_are_refused_by_an_estimator(self):
+        import specbench as sb
+
+        x = np.ma.masked_array(np.random.default_rng(4).standard_normal(4096))
+        x[100] = np.ma.masked
+        with pytest.raises(sb.SpecbenchError, match=r"(?i)non-finite|NaN|gap"):
+            sb.Welch(segment_length=256)(Signal(x, fs=100.0))
