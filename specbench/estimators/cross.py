@@ -301,13 +301,15 @@ class CrossSpectrumResult:
         """Time delay of ``y`` relative to ``x`` from the slope of the phase.
 
         Over the bins of ``band`` (Hz; default the whole range) whose coherence exceeds
-        ``coherence_threshold``, the phase is unwrapped (around a coarse delay from the
-        peak of the phase-only inverse transform) and fitted by weighted least squares
+        ``coherence_threshold``, the phase relative to a coarse delay (the peak of the
+        phase-only inverse transform, to 1/8 sample) is fitted by weighted least squares
         ``phi(f) = a - 2 pi f d``, weights ``1 / sigma[phi]^2`` (Bendat & Piersol 2010).
         The standard error of ``d`` is the sandwich variance of that fit with the
         correlation between neighbouring bins of the window, ``|c_j|^2`` with
         ``c_j = sum_t w_t^2 exp(-2i pi j t / nfft) / sum_t w_t^2`` (our derivation); the
-        interval is ``d +- z stderr``.
+        interval is ``d +- z stderr``.  Choose a band where the two channels are clearly
+        coherent: in a filter's stop band the phase can jump by pi (sign changes of a
+        linear-phase response), which no straight line fits.
         """
         if self.is_matrix:
             raise InputError(
@@ -609,8 +611,10 @@ def _phase_delay(res: CrossSpectrumResult, band: Any) -> Delay:
             SpecbenchWarning, stacklevel=3,
         )
     f = freq[idx]
+    # residual phase after the coarse delay (within 1/16 sample: |residual| < pi/8 at Nyquist),
+    # wrapped, not unwrapped: a chance-coherent bin with a random phase then cannot shift
+    # the bins after it by 2 pi
     resid = np.angle(g[idx] * np.exp(2j * np.pi * f * tau0))
-    resid = np.unwrap(resid)
     sigma = _random_error(res.coherence[idx], res.independent_bins[idx])
     wts = 1.0 / sigma**2
     a = np.stack([np.ones_like(f), f], axis=1)

@@ -194,6 +194,21 @@ def test_delay_intervals_cover_at_nominal():
     assert abs(np.mean(e1) - 3.37) < 0.02 and abs(np.mean(e2) - 3.37) < 0.02
 
 
+def test_phase_delay_not_thrown_by_chance_coherent_bins():
+    # Below 0.2 cycles/sample y is x delayed by 7.3 samples; above, independent noise: the
+    # ~5 % of incoherent bins above the threshold (random phase) must not shift the fit
+    # (the residual phase is wrapped, never unwrapped across them).
+    rng = np.random.default_rng(16)
+    n = 400_000
+    x = rng.standard_normal(n)
+    f = np.fft.rfftfreq(n)
+    spec = np.fft.rfft(x) * np.exp(-2j * np.pi * f * 7.3)
+    noise = np.fft.rfft(rng.standard_normal(n))
+    y = np.fft.irfft(np.where(f < 0.2, spec, noise), n=n) + 0.1 * rng.standard_normal(n)
+    d = sb.CrossSpectrum(segment_length=1024)(x, y, fs=FS).delay()
+    assert d.value == pytest.approx(7.3, abs=0.02) and d.info["bins_used"] < 0.5 * d.info["bins_in_band"]
+
+
 def test_delay_pair_demo_both_methods():
     sig = sb.demo("delay-pair")
     truth = sig.truth.extras["delay_s"]
