@@ -32,6 +32,7 @@ __all__ = ["Workbench", "Analysis", "SpectrumAnalysis", "CorrelationAnalysis", "
 
 def __getattr__(name):
     if name == "Workbench":
+        from . import _cross_view  # noqa: F401  (registers the cross-channel analysis)
         from .workbench import Workbench
 
         return Workbench

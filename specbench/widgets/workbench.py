@@ -169,6 +169,9 @@ class Workbench(W.VBox):
         analyses = [a() if isinstance(a, type) else a for a in analyses]
         if not analyses or not all(isinstance(a, Analysis) for a in analyses):
             raise SettingsError("analyses must be a non-empty list of specbench.widgets.Analysis objects.")
+        for a in analyses:  # analyses that write their own data lines name the in-memory data
+            if hasattr(a, "data_name"):
+                a.data_name = data_name
         wanted = dict(estimators or {})
         if estimator is not None:
             wanted["psd"] = estimator

@@ -1,0 +1,107 @@
+"""The Workbench's cross-channel analysis: results equal to sb.CrossSpectrum, the pair
+menus, the delay readout, a failing setting keeps the last good view, and freezing."""
+
+import numpy as np
+import pytest
+
+import specbench as sb
+from specbench.widgets import Workbench
+
+
+@pytest.fixture
+def duct():
+    return sb.demo("delay-pair", duration=30.0)
+
+
+def test_cross_view_shows_the_pair_and_the_delay(duct):
+    wb = Workbench(duct)
+    assert "cross" in wb.analyses
+    host = wb.views["cross"]
+    full = wb.result("cross")
+    ref = sb.CrossSpectrum()(duct, pair="all")
+    assert np.array_equal(full.csd, ref.csd)
+    shown = host._shown
+    assert shown.channels == ("upstream", "downstream")
+    assert np.array_equal(shown.coherence, ref.pair("upstream", "downstream").coherence)
+    assert "interval" in host.delay.value and "4.9%" in host.delay.value
+    assert 0 < host.band_hi.value < 250  # default band: where the pair is clearly coherent
+    with pytest.warns(sb.SpecbenchWarning, match="4.9% of the segment length"):
+        d = shown.delay(band=(host.band_lo.value, host.band_hi.value))
+    assert abs(d.value - 0.025) < 0.1 / duct.fs and f"delay {d.value * 1e3:.4g} ms" in host.delay.value
+    pts = wb.mark_points()
+    assert all(pts[f"cross/{q}/current"] <= 2400 for q in ("coherence", "phase", "gain"))
+    assert "cross_threshold" in [m.key for m in wb.analyses["cross"].merits(shown, {})]
+
+
+def test_pair_menus_redraw_without_recomputing(duct):
+    wb = Workbench(duct)
+    host = wb.views["cross"]
+    before = wb.result("cross")
+    host.x_menu.value = "downstream"
+    host.y_menu.value = "upstream"
+    assert wb.result("cross") is before
+    assert host._shown.channels == ("downstream", "upstream")
+    assert "delay -24.9" in host.delay.value or "delay -25" in host.delay.value
+    host.y_menu.value = "downstream"  # same channel twice: refused, last pair kept
+    assert "two different channels" in host.delay.value and host._shown.channels == ("downstream", "upstream")
+
+
+def test_settings_change_delay_band_and_bad_setting_keeps_the_last_view(duct):
+    wb = Workbench(duct)
+    host = wb.views["cross"]
+    wb.set_estimator("cross", sb.CrossSpectrum(segment_length=4096))
+    assert wb.result("cross").segments == sb.CrossSpectrum(segment_length=4096)(duct, pair="all").segments
+    d = host._shown.delay(band=(host.band_lo.value, host.band_hi.value))
+    assert "4.9%" not in host.delay.value and abs(d.value - 0.025) < 0.05 / duct.fs
+    host.band_lo.value, host.band_hi.value = 10.0, 10.2
+    assert "at least 2 are needed" in host.delay.value
+    good = wb.result("cross")
+    with pytest.raises(sb.SpecbenchError):
+        wb.set_estimator("cross", sb.CrossSpectrum(segment_length=1 << 17))
+    assert wb.result("cross") is good
+
+
+def test_single_channel_record_says_what_the_view_needs():
+    wb = Workbench(sb.demo("white-noise", duration=5.0))
+    host = wb.views["cross"]
+    assert "compares two channels" in host.delay.value
+    assert "Internal error" not in wb.status and "cross" not in wb.code()
+
+
+def test_frozen_cell_reproduces_the_cross_result_bit_for_bit(duct):
+    wb = Workbench(duct)
+    wb.set_estimator("cross", sb.CrossSpectrum(segment_length=2048, overlap=0.75))
+    code = wb.code()
+    assert "cross_estimator = sb.CrossSpectrum(segment_length=2048, overlap=0.75)" in code
+    ns: dict = {}
+    exec(compile(code, "<frozen>", "exec"), ns)
+    shown = wb.views["cross"]._shown
+    assert np.array_equal(ns["cross"].coherence, shown.coherence)
+    assert np.array_equal(ns["cross"].gain_upper, shown.gain_upper)
+    assert ns["cross_delay"].value == shown.delay(band=wb.analyses["cross"].band).value
+
+
+def test_every_cross_control_drives_the_estimator(duct):
+    # controls generated from CrossSpectrum's constraint table (prefix "cross_")
+    wb = Workbench(duct)
+    keys = [k for k in wb.controls if k.startswith("cross_") and k[6:] in sb.CrossSpectrum.params()]
+    assert {f"cross_{k}" for k in sb.CrossSpectrum.params() if k not in ("detrend", "gaps")} <= set(keys)
+    changes = {"cross_segment_length": 2048, "cross_overlap": 0.6, "cross_confidence": 0.9,
+               "cross_scaling": "spectrum", "cross_window": "hamming"}
+    for key, value in changes.items():
+        before = wb.result("cross")
+        wb.controls[key].value = value
+        assert getattr(wb.estimator_of("cross"), key[6:]) == value, (key, wb.status)
+        assert wb.result("cross") is not before
+    assert wb.views["cross"]._shown.confidence == 0.9
+
+
+def test_in_memory_data_freezes_under_its_own_name(duct):
+    frame = duct.data.copy()
+    wb = Workbench(sb.Signal(frame, fs=duct.fs, channels=list(duct.channels)), data_name="pressures",
+                   estimators={"cross": sb.CrossSpectrum(segment_length=2048)})
+    code = wb.code()
+    assert "cross_signal = pressures if isinstance(pressures, sb.Signal)" in code
+    ns = {"pressures": frame}
+    exec(compile(code, "<frozen>", "exec"), ns)
+    assert np.array_equal(ns["cross"].coherence, wb.views["cross"]._shown.coherence)
