@@ -272,7 +272,36 @@ class FreezePanel(W.VBox):
         if self.copy_button is not None:
             self.copy_button.text = code
         self.copy_result.value = ""
-        self._say(self.message, f"Frozen {now_iso(self.frozen_at)}: {self.state.estimator!r}.", muted=True)
+        self.mark_stale()
+
+    @staticmethod
+    def _settings_key(state: FreezeState) -> tuple:
+        """What the code depends on, to tell when it is out of date."""
+        return (state.channel, state.span, state.fs_override, state.estimator, state.correlation_estimator,
+                tuple(getattr(state, "analyses", {}).items()))
+
+    @property
+    def stale(self) -> bool:
+        """True when the code shown was written for other settings than those on screen."""
+        if self.state is None:
+            return False
+        try:
+            return self._settings_key(self._get_state()) != self._settings_key(self.state)
+        except Exception:  # the panel never raises into the workbench
+            return False
+
+    def mark_stale(self) -> None:
+        """Say in the panel when its code is out of date (the workbench calls this after each update)."""
+        if self.state is None:
+            return
+        if self.stale:
+            self._say(self.message, f"Out of date: this code is for the settings frozen {now_iso(self.frozen_at)} "
+                      f"({self.state.estimator!r}); the settings on screen have changed since. Press Freeze "
+                      "to write the code for them.", error=True)
+            self.add_class("sb-freeze-stale")
+        else:
+            self._say(self.message, f"Frozen {now_iso(self.frozen_at)}: {self.state.estimator!r}.", muted=True)
+            self.remove_class("sb-freeze-stale")
 
     def _copied(self, change: Any) -> None:
         ok = self.copy_button.result == "copied"

@@ -159,3 +159,16 @@ def test_random_control_sequences_never_leave_the_widget_stuck(small, seq):
     bench.controls["overlap"].value = 0.25
     assert bench.estimator == sb.Welch(segment_length=512, overlap=0.25)
     assert_same_spectrum(bench.spectrum, bench.estimator(bench.selected))
+
+
+def test_the_freeze_panel_says_when_its_code_is_out_of_date(small):
+    bench = sb.Workbench(small)
+    panel = bench._panel
+    panel.refresh()
+    assert not panel.stale and "Frozen" in panel.message.value
+    bench.controls["overlap"].value = 0.25
+    assert panel.stale and "Out of date" in panel.message.value
+    assert "sb-freeze-stale" in panel._dom_classes
+    panel.refresh()
+    assert not panel.stale and "Out of date" not in panel.message.value
+    assert "overlap=0.25" in panel.code
