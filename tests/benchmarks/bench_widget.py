@@ -59,7 +59,7 @@ CYCLES = {
     "acf_band": ["white", "bartlett"],
     "acf_confidence": [0.9, 0.95],
     "channel": ["y", "x"],
-    "span": [(1.0, 900.0), (0.0, 800.0), None],
+    "span": [(1.0, 400.0), (0.0, 300.0), None],
     "fs": [20_000.0, None],
 }
 #: method switches: to another method and back to Welch (segment 4096) in each round
