@@ -72,10 +72,10 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
                         help="run only these analyses of the settings file (default: every one)")
     parser.add_argument("--channel", metavar="NAME",
                         help="channel to analyse, in place of the settings' channel (default: the settings')")
-    parser.add_argument("--fs", type=_rate, metavar="HZ",
-                        help="sample rate in Hz, passed to sb.load; replaces any rate in the settings")
-    parser.add_argument("--time-column", metavar="C",
-                        help="text files: the time column (name or position), passed to sb.load")
+    for flags, _key, options in LOADER_OPTIONS:
+        parser.add_argument(*flags, **options)
+    parser.add_argument("--overwrite", action="store_true",
+                        help="replace result files that already exist (default: refuse; never an input file)")
     parser.add_argument("--quiet", "-q", action="store_true", help="no progress messages on stderr")
 
 
@@ -87,6 +87,45 @@ def _rate(text: str) -> float:
     if not np.isfinite(value) or value <= 0:
         raise argparse.ArgumentTypeError(f"--fs must be a positive sample rate in Hz, got {text!r}")
     return value
+
+
+def _channels_arg(text: str) -> list:
+    names = [c.strip() for c in text.split(",") if c.strip()]
+    if not names:
+        raise argparse.ArgumentTypeError(f"--channels takes names or positions separated by commas, got {text!r}")
+    return [int(c) if c.isdigit() else c for c in names]
+
+
+def _skip_arg(text: str) -> int:
+    if not text.isdigit():
+        raise argparse.ArgumentTypeError(f"--skip-rows takes a whole number of lines >= 0, got {text!r}")
+    return int(text)
+
+
+def _time_column_arg(text: str) -> Any:
+    return int(text) if text.isdigit() else text
+
+
+#: Reading options of ``specbench estimate``: (flags, sb.load keyword, argparse options).  Each one
+#: given on the command line is passed to sb.load and replaces the settings file's value.  To add a
+#: reading option, append a row; other options (not sb.load's) go to add_arguments directly.
+LOADER_OPTIONS: list[tuple[tuple[str, ...], str, dict]] = [
+    (("--fs",), "fs", dict(type=_rate, metavar="HZ",
+                           help="sample rate in Hz, passed to sb.load; replaces any rate in the settings")),
+    (("--time-column",), "time_column", dict(type=_time_column_arg, metavar="C",
+                                             help="text files: the time column (name or position), passed to sb.load")),
+    (("--on-gap",), "on_gap", dict(choices=("error", "fill"), metavar="error|fill",
+                                   help="gaps and non-finite samples: 'error' (default) stops; 'fill' keeps "
+                                        "them as NaN gaps (estimate with gaps='skip')")),
+    (("--channels",), "channels", dict(type=_channels_arg, metavar="A,B",
+                                       help="channels to read (names or positions, comma-separated), passed "
+                                            "to sb.load")),
+    (("--delimiter",), "delimiter", dict(metavar="D", help="text files: the delimiter (',', ';', 'tab', ' ')")),
+    (("--decimal",), "decimal", dict(choices=(".", ","), metavar="MARK",
+                                     help="text files: the decimal mark, '.' or ','")),
+    (("--skip-rows",), "skip_rows", dict(type=_skip_arg, metavar="N",
+                                         help="text files: lines of metadata above the header to skip")),
+]
 
 
 class _Progress:
@@ -175,12 +214,15 @@ def _load_options(settings: Settings, args: argparse.Namespace) -> tuple[dict, l
     if data is not None and data.get("kind") == "load":
         kwargs.update(data.get("kwargs") or {})
         steps = [tuple(s) for s in data.get("steps", [])]
-    if args.fs is not None:
-        kwargs["fs"] = args.fs
-        steps = [s for s in steps if s[0] != "with_fs"]
-    if args.time_column is not None:
-        tc = args.time_column
-        kwargs["time_column"] = int(tc) if tc.isdigit() else tc
+    for _flags, key, _options in LOADER_OPTIONS:
+        value = getattr(args, key, None)
+        if value is None:
+            continue
+        if key == "delimiter" and value in ("tab", "\\t"):
+            value = "\t"
+        kwargs[key] = value
+        if key == "fs":
+            steps = [s for s in steps if s[0] != "with_fs"]
     if args.channel is not None:
         steps = [s for s in steps if s[0] != "channel"]
     return kwargs, steps
@@ -287,6 +329,7 @@ def estimate_file(args: argparse.Namespace, progress: _Progress) -> dict:
 
     settings = read_settings(args.settings)
     outputs = _outputs(settings, args)
+    _guard_outputs(args, outputs, progress)
     for out in {args.out, *outputs.values()}:
         if out.suffix.lower() not in OUT_FORMATS:
             raise BatchError(f"cannot write {str(out)!r}: the result is written as .csv or .npz. "
@@ -423,16 +466,89 @@ def _base_metadata(args, settings, load_call, steps, selection, sig, fp_line) ->
     }
 
 
+#: temporary files are named ``.<output name>.<random>`` + this, next to the output
+TEMP_SUFFIX = ".specbench-partial"
+
+
+def _same_file(a: Path, b: Path) -> bool:
+    """``a`` and ``b`` name one file: the same resolved path, or (both existing) one inode."""
+    if os.path.realpath(a) == os.path.realpath(b):
+        return True
+    try:
+        return os.path.samefile(a, b)
+    except OSError:
+        return False
+
+
+def _guard_outputs(args: argparse.Namespace, outputs: dict[str, Path], progress: Any) -> None:
+    """Refuse any write that could destroy data: an output that is an input (also through a
+    symlink or a hard link), two outputs on one file, an existing file without --overwrite.
+    Reports temporary files left next to an output by a killed run."""
+    inputs = {"the recording DATA": args.data, "the settings file": args.settings}
+    seen: dict[str, Path] = {}
+    for name, out in outputs.items():
+        for what, inp in inputs.items():
+            if _same_file(out, inp):
+                raise BatchError(f"refusing to write the {name!r} result to {str(out)!r}: that is {what} "
+                                 f"({str(inp)!r}), which would be destroyed. Choose another output file name.")
+        for other, path in seen.items():
+            if _same_file(out, path):
+                raise BatchError(f"the analyses {other!r} and {name!r} would both be written to {str(out)!r}; "
+                                 "the second would replace the first. Give each its own file (--out, --acf-out, "
+                                 "--analysis-out NAME=PATH).")
+        seen[name] = out
+        if out.is_dir():
+            raise BatchError(f"cannot write {str(out)!r}: it is a folder. Give a file name ending in .csv or .npz.")
+        if (out.exists() or out.is_symlink()) and not getattr(args, "overwrite", False):
+            raise BatchError(f"{str(out)!r} already exists; specbench estimate does not replace files unless "
+                             "told to. Pass --overwrite to replace it, or choose another output name.")
+        folder = Path(os.path.realpath(out)).parent
+        if folder.is_dir():
+            target = Path(os.path.realpath(out)).name
+            for left in sorted(folder.glob(f".{target}.*{TEMP_SUFFIX}")):
+                progress.say(f"note: {str(left)!r} is a partial file left by an interrupted run (killed before "
+                             f"it could clean up); it is not a result. Delete it.")
+
+
+def _umask() -> int:
+    mask = os.umask(0o022)
+    os.umask(mask)
+    return mask
+
+
 def _atomic_write(path: Path, write) -> None:
-    fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.", suffix=".tmp", dir=path.parent)
+    """Write through a temporary file next to the target, then rename it over the target.
+
+    A symlink is followed (its target is replaced, the link stays); the file gets the mode of
+    the file it replaces, or 0666 less the umask for a new file (as ``open`` would give); on
+    failure or a signal (SIGTERM is turned into an exception by :func:`run`) the temporary file
+    is removed.  Errors name the output, never the temporary file."""
+    target = Path(os.path.realpath(path))
+    try:
+        mode = (os.stat(target).st_mode & 0o7777) if target.exists() else (0o666 & ~_umask())
+        fd, tmp = tempfile.mkstemp(prefix=f".{target.name}.", suffix=TEMP_SUFFIX, dir=target.parent)
+    except OSError as e:
+        raise BatchError(f"cannot write {str(path)!r}: {e.strerror or e} (in the folder "
+                         f"{str(target.parent)!r}). Check its permissions and free space.") from None
     try:
         with os.fdopen(fd, "wb") as f:
             write(f)
-        os.replace(tmp, path)
+        os.chmod(tmp, mode)
+        os.replace(tmp, target)
+    except OSError as e:
+        _remove(tmp)
+        raise BatchError(f"cannot write {str(path)!r}: {e.strerror or e}. Check the folder's "
+                         "permissions and free space.") from None
     except BaseException:
-        if os.path.exists(tmp):
-            os.unlink(tmp)
+        _remove(tmp)
         raise
+
+
+def _remove(tmp: str) -> None:
+    try:
+        os.unlink(tmp)
+    except FileNotFoundError:
+        pass
 
 
 def _columns(names: list[str], parts: tuple[str, ...]) -> list[str]:
@@ -546,7 +662,9 @@ for _kind in ("Autocorrelation", "CrossCorrelation"):
     register_writer(_kind, _CORRELATION)
 
 
-_FLAGS = {"fs=": "--fs HZ", "time_column=": "--time-column C"}
+_FLAGS = {"fs=": "--fs HZ", "time_column=": "--time-column C", "on_gap=": "--on-gap fill",
+          "channels=": "--channels A,B", "skip_rows=": "--skip-rows N", "delimiter=": "--delimiter D",
+          "decimal=": "--decimal MARK"}
 
 
 def _command_line_hints(message: str) -> str:
@@ -555,6 +673,30 @@ def _command_line_hints(message: str) -> str:
     if hints:
         message += f" (On the command line: {' or '.join(hints)}.)"
     return message
+
+
+class _Terminated(BaseException):
+    """SIGTERM during specbench estimate: unwinds so that partial files are removed."""
+
+
+def _on_sigterm(signum, frame) -> None:
+    raise _Terminated(signum)
+
+
+def _catch_sigterm() -> Any:
+    import signal
+
+    try:
+        return signal.signal(signal.SIGTERM, _on_sigterm)
+    except ValueError:  # not the main thread (run from a test or an embedding program)
+        return None
+
+
+def _restore_sigterm(previous: Any) -> None:
+    import signal
+
+    if previous is not None:
+        signal.signal(signal.SIGTERM, previous)
 
 
 def run(args: argparse.Namespace) -> int:
@@ -577,8 +719,13 @@ def run(args: argparse.Namespace) -> int:
     message on stderr says which and how to fix it).
     """
     progress = _Progress(sys.stderr, args.quiet)
+    previous = _catch_sigterm()
     try:
         summary = estimate_file(args, progress)
+    except _Terminated as e:
+        print(f"specbench estimate: stopped by signal {e.args[0]}; no result was written and the "
+              "partial files were removed.", file=sys.stderr)
+        return 128 + int(e.args[0])
     except (SpecbenchError, BatchError) as e:
         print(f"specbench estimate: {_command_line_hints(str(e))}", file=sys.stderr)
         return 2
@@ -589,6 +736,8 @@ def run(args: argparse.Namespace) -> int:
     except OSError as e:
         print(f"specbench estimate: {e.filename or ''}: {e.strerror or e}", file=sys.stderr)
         return 2
+    finally:
+        _restore_sigterm(previous)
     progress.say("wrote " + ", ".join(f"{p} ({n})" for n, p in summary["paths"].items()))
     return 0
 

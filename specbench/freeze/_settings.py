@@ -415,6 +415,24 @@ def _selection_from_dict(d: Any, where: str) -> Selection | None:
     return None if sel.empty else sel
 
 
+def _check_load_kwargs(kwargs: dict) -> None:
+    """Every key of data.kwargs must be an sb.load argument (checked when the file is read)."""
+    import difflib
+    import inspect
+
+    from ..data import load
+
+    known = [p for p in inspect.signature(load).parameters if p != "path"]
+    for key in kwargs:
+        if key not in known:
+            near = difflib.get_close_matches(str(key), known, n=1)
+            hint = f" Did you mean {near[0]!r}?" if near else ""
+            raise SettingsError(
+                f"data.kwargs holds {key!r}, which is not an sb.load argument.{hint} The arguments "
+                f"are {', '.join(known)}; correct or remove it in the settings file."
+            )
+
+
 def _data_from_dict(d: Any) -> dict | None:
     if d is None:
         return None
@@ -424,6 +442,8 @@ def _data_from_dict(d: Any) -> dict | None:
         raise SettingsError(f"data.path must be the file name the data was loaded from; got {d.get('path')!r}.")
     if not isinstance(d.get("kwargs", {}), dict):
         raise SettingsError(f"data.kwargs must be an object of sb.load arguments; got {d.get('kwargs')!r}.")
+    if d["kind"] == "load":
+        _check_load_kwargs(d.get("kwargs") or {})
     steps = d.get("steps", [])
     ok_steps = isinstance(steps, list) and all(
         isinstance(s, list) and s and (

@@ -116,7 +116,8 @@ def test_settings_from_the_workbench_state_read_a_new_file_the_same_way(tmp_path
     spec = state.estimator(api)
     _assert_equal_columns(table, spec, spec.freq)
     # --channel picks another channel than the settings'
-    assert main(["estimate", str(second), "-s", str(settings), "-o", str(out), "-q", "--channel", "frame"]) == 0
+    assert main(["estimate", str(second), "-s", str(settings), "-o", str(out), "-q", "--channel", "frame",
+                 "--overwrite"]) == 0
     spec = state.estimator(Selection(channel="frame", span=(1.0, 11.0), fs=1024.0).apply(
         sb.load(second, time_column="time")))
     _, _, table = _read_csv(out)
@@ -310,3 +311,224 @@ def test_the_writer_hook(tmp_path, npy_file, monkeypatch, capsys):
     err = capsys.readouterr().err
     assert "skipped the analysis 'acf': Autocorrelation has no writer in specbench estimate" in err
     assert not (tmp_path / "h.acf.csv").exists()
+
+
+# --------------------------------------------------------------------------- never lose data
+
+
+def _small_run(tmp_path, n=20_000, seed=21):
+    """An invented recording (white noise) and Welch + autocorrelation settings."""
+    x = np.random.default_rng(seed).standard_normal(n)
+    data = tmp_path / "rec.npy"
+    np.save(data, x)
+    settings = save_settings(sb.Welch(segment_length=256), tmp_path / "s.json",
+                             correlation=sb.Autocorrelation(max_lag=0.05))
+    return data, settings
+
+
+def _estimate(*argv):
+    return main(["estimate", *map(str, argv), "-q", "--fs", "1000"])
+
+
+def test_output_that_is_the_input_is_refused(tmp_path, capsys):
+    data, settings = _small_run(tmp_path)
+    before = data.read_bytes()
+    link = tmp_path / "alias.npy"
+    link.symlink_to(data)
+    hard = tmp_path / "hard.npy"
+    hard.hardlink_to(data)
+    for out in (data, tmp_path / "." / "rec.npy", link, hard):
+        capsys.readouterr()
+        assert _estimate(data, "-s", settings, "-o", out, "--overwrite") == 2
+        err = capsys.readouterr().err
+        assert re.search(r"refusing to write the 'psd' result to .*: that is the recording DATA .*which "
+                         r"would be destroyed\. Choose another output file name", err), err
+    # a CSV recording named as the output, through the path, a symlink and a hard link
+    csv_in = tmp_path / "rec.csv"
+    np.savetxt(csv_in, np.random.default_rng(2).standard_normal(5000))
+    csv_bytes = csv_in.read_bytes()
+    (tmp_path / "alias.csv").symlink_to(csv_in)
+    (tmp_path / "hard.csv").hardlink_to(csv_in)
+    for out in (csv_in, tmp_path / "sub" / ".." / "rec.csv", tmp_path / "alias.csv", tmp_path / "hard.csv"):
+        (tmp_path / "sub").mkdir(exist_ok=True)
+        assert _estimate(csv_in, "-s", settings, "-o", out, "--overwrite") == 2
+        assert "that is the recording DATA" in capsys.readouterr().err
+    assert data.read_bytes() == before and csv_in.read_bytes() == csv_bytes
+
+
+def test_settings_file_as_output_is_refused(tmp_path, capsys):
+    data, _ = _small_run(tmp_path)
+    settings = save_settings(sb.Welch(segment_length=256), tmp_path / "s.csv.json")
+    alias = tmp_path / "settings_alias.csv"
+    alias.symlink_to(settings)
+    text = settings.read_text()
+    assert _estimate(data, "-s", settings, "-o", alias, "--overwrite") == 2
+    assert re.search(r"that is the settings file .*which would be destroyed", capsys.readouterr().err)
+    assert settings.read_text() == text
+
+
+def test_two_outputs_on_one_file_are_refused(tmp_path, capsys):
+    data, settings = _small_run(tmp_path)
+    out = tmp_path / "r.csv"
+    assert _estimate(data, "-s", settings, "-o", out, "--acf-out", tmp_path / "." / "r.csv") == 2
+    assert re.search(r"the analyses 'psd' and 'acf' would both be written to .*r\.csv'; the second would "
+                     r"replace the first\. Give each its own file", capsys.readouterr().err)
+    assert not out.exists()
+
+
+def test_existing_output_needs_overwrite(tmp_path, capsys):
+    data, settings = _small_run(tmp_path)
+    out = tmp_path / "r.csv"
+    out.write_text("precious\n")
+    assert _estimate(data, "-s", settings, "-o", out) == 2
+    assert re.search(r"r\.csv' already exists; specbench estimate does not replace files unless told to\. "
+                     r"Pass --overwrite", capsys.readouterr().err)
+    assert out.read_text() == "precious\n"
+    assert _estimate(data, "-s", settings, "-o", out, "--overwrite") == 0
+    assert out.read_text().startswith("# specbench estimate")
+
+
+def test_created_files_follow_the_umask_and_replaced_files_keep_their_mode(tmp_path):
+    import os
+    import stat
+
+    data, settings = _small_run(tmp_path)
+    old = os.umask(0o027)
+    try:
+        assert _estimate(data, "-s", settings, "-o", tmp_path / "a.csv") == 0
+    finally:
+        os.umask(old)
+    assert stat.S_IMODE((tmp_path / "a.csv").stat().st_mode) == 0o640
+    assert stat.S_IMODE((tmp_path / "a.acf.csv").stat().st_mode) == 0o640
+    (tmp_path / "a.csv").chmod(0o604)
+    assert _estimate(data, "-s", settings, "-o", tmp_path / "a.csv", "--overwrite") == 0
+    assert stat.S_IMODE((tmp_path / "a.csv").stat().st_mode) == 0o604
+
+
+def test_a_symlinked_output_writes_its_target(tmp_path):
+    data, settings = _small_run(tmp_path)
+    (tmp_path / "results").mkdir()
+    target = tmp_path / "results" / "psd.csv"
+    target.write_text("old\n")
+    link = tmp_path / "latest.csv"
+    link.symlink_to(target)
+    assert _estimate(data, "-s", settings, "-o", link, "--acf-out", tmp_path / "acf.csv", "--overwrite") == 0
+    assert link.is_symlink() and link.resolve() == target.resolve()
+    assert target.read_text().startswith("# specbench estimate")
+
+
+def test_unwritable_folder_names_the_output_not_a_temporary_file(tmp_path, capsys):
+    import os
+
+    if os.geteuid() == 0:
+        folder = tmp_path / "not_a_folder"
+        folder.write_text("x")  # root ignores permissions: use a path under a file instead
+        out = folder / "r.csv"
+        assert _estimate(*_small_run(tmp_path)[:1], "-s", _small_run(tmp_path)[1], "-o", out) == 2
+        err = capsys.readouterr().err
+        assert re.search(r"cannot write '.*not_a_folder/r\.csv'", err) and _batch.TEMP_SUFFIX not in err
+        return
+    data, settings = _small_run(tmp_path)
+    ro = tmp_path / "ro"
+    ro.mkdir()
+    ro.chmod(0o500)
+    try:
+        assert _estimate(data, "-s", settings, "-o", ro / "r.csv") == 2
+    finally:
+        ro.chmod(0o700)
+    err = capsys.readouterr().err
+    assert re.search(r"cannot write '.*ro/r\.csv': Permission denied", err) and _batch.TEMP_SUFFIX not in err
+
+
+def test_failed_write_leaves_no_temporary_file(tmp_path):
+    def boom(f):
+        f.write(b"partial")
+        raise KeyboardInterrupt
+
+    with pytest.raises(KeyboardInterrupt):
+        _batch._atomic_write(tmp_path / "r.csv", boom)
+    assert list(tmp_path.iterdir()) == []
+
+
+def test_sigterm_removes_the_partial_file_and_sigkill_leftover_is_named(tmp_path):
+    import os
+    import signal
+
+    data, settings = _small_run(tmp_path, n=400_000)
+    out = tmp_path / "r.csv"
+    # SIGTERM while writing: the handler unwinds and the partial file is removed
+    code = (
+        "import os, signal, sys, time\n"
+        "from specbench.freeze import _batch\n"
+        "from specbench.cli import main\n"
+        "real = _batch._write_csv\n"
+        "def slow(*a, **k):\n"
+        "    real(*a, **k)\n"
+        "_batch._SPECTRUM = _batch.AnalysisWriter(write=lambda p, r, m: _batch._atomic_write(p, lambda f: "
+        "(f.write(b'partial'), f.flush(), print('WRITING', flush=True), time.sleep(30))),)\n"
+        "_batch.register_writer('Welch', _batch._SPECTRUM)\n"
+        f"sys.exit(main(['estimate', {str(data)!r}, '-s', {str(settings)!r}, '-o', {str(out)!r}, '--fs', '1000', "
+        "'-q', '--only', 'psd']))\n"
+    )
+    proc = subprocess.Popen([sys.executable, "-c", code], stdout=subprocess.PIPE, stderr=subprocess.PIPE,
+                            text=True, env={**os.environ})
+    assert proc.stdout.readline().strip() == "WRITING"
+    partial = [p for p in tmp_path.iterdir() if p.name.endswith(_batch.TEMP_SUFFIX)]
+    assert len(partial) == 1 and partial[0].name.startswith(".r.csv.")
+    proc.send_signal(signal.SIGTERM)
+    _, err = proc.communicate(timeout=30)
+    assert proc.returncode == 128 + signal.SIGTERM
+    assert "stopped by signal 15; no result was written and the partial files were removed" in err
+    assert not any(p.name.endswith(_batch.TEMP_SUFFIX) for p in tmp_path.iterdir()) and not out.exists()
+    # SIGKILL cannot be caught: the next run names the leftover
+    proc = subprocess.Popen([sys.executable, "-c", code], stdout=subprocess.PIPE, stderr=subprocess.PIPE,
+                            text=True)
+    assert proc.stdout.readline().strip() == "WRITING"
+    proc.kill()
+    proc.communicate(timeout=30)
+    (left,) = [p for p in tmp_path.iterdir() if p.name.endswith(_batch.TEMP_SUFFIX)]
+    again = ("import sys; from specbench.cli import main; "
+             f"sys.exit(main(['estimate', {str(data)!r}, '-s', {str(settings)!r}, '-o', {str(out)!r}, "
+             "'--fs', '1000', '--only', 'psd']))")
+    run = subprocess.run([sys.executable, "-c", again], capture_output=True, text=True, timeout=120)
+    assert run.returncode == 0, run.stderr
+    assert f"note: {str(left)!r} is a partial file left by an interrupted run" in run.stderr
+
+
+def test_unknown_loader_keyword_in_settings_is_one_clear_line(tmp_path, capsys):
+    data, settings = _small_run(tmp_path)
+    doc = json.loads(settings.read_text())
+    doc["data"] = {"kind": "load", "path": "rec.npy", "kwargs": {"fs": 1000.0, "on_gaps": "fill"}, "steps": []}
+    settings.write_text(json.dumps(doc))
+    with pytest.raises(sb.SpecbenchError, match=r"data.kwargs holds 'on_gaps', which is not an sb.load "
+                                                r"argument\. Did you mean 'on_gap'\?"):
+        sb.read_settings(settings)
+    assert main(["estimate", str(data), "-s", str(settings), "-o", str(tmp_path / "r.csv"), "-q"]) == 2
+    err = capsys.readouterr().err
+    assert "Traceback" not in err and len(err.strip().splitlines()) == 1 and "Did you mean 'on_gap'" in err
+
+
+def test_loader_options_on_the_command_line(tmp_path, capsys):
+    rows = []
+    for i in range(3000):
+        b = "" if i == 50 else f"{np.cos(i / 5):.6f}"
+        rows.append(f"{i / 100:.2f};{np.sin(i / 7):.6f};{b}\n".replace(".", ","))
+    text = "Logger: bench 2\n" + "time [s];a [g];b [g]\n" + "".join(rows)
+    path = tmp_path / "log.csv"
+    path.write_text(text)
+    settings = save_settings(sb.Welch(segment_length=256, gaps="skip"), tmp_path / "s.json")
+    out = tmp_path / "r.csv"
+    assert main(["estimate", str(path), "-s", str(settings), "-o", str(out), "-q"]) == 2
+    assert "--skip-rows N" in capsys.readouterr().err
+    assert main(["estimate", str(path), "-s", str(settings), "-o", str(out), "-q", "--skip-rows", "1"]) == 2
+    assert "(On the command line: --on-gap fill" in capsys.readouterr().err
+    assert main(["estimate", str(path), "-s", str(settings), "-o", str(out), "-q", "--skip-rows", "1",
+                 "--on-gap", "fill", "--channels", "b", "--delimiter", ";", "--decimal", ","]) == 0
+    api = sb.Welch(segment_length=256, gaps="skip")(sb.load(path, skip_rows=1, on_gap="fill", channels=["b"],
+                                                            delimiter=";", decimal=","))
+    _, columns, table = _read_csv(out)
+    _assert_equal_columns(table, api, api.freq)
+    parser = argparse.ArgumentParser()
+    _batch.add_arguments(parser)
+    assert {"fs", "time_column", "on_gap", "channels", "delimiter", "decimal", "skip_rows"} <= {
+        key for _, key, _ in _batch.LOADER_OPTIONS}
