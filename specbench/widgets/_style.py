@@ -100,7 +100,8 @@ _CSS = """
   margin-left: 0 !important; margin-right: 0 !important; max-width: 100%; }
 .sb-workbench .jupyter-widgets.bqplot { width: 100% !important; min-width: 0 !important; }
 /* the two views sit side by side while each gets 380 px, else one above the other */
-.sb-workbench .widget-vbox:has(> .sb-psd), .sb-workbench .widget-vbox:has(> .sb-acf) {
+.sb-workbench .widget-vbox:has(> .sb-psd), .sb-workbench .widget-vbox:has(> .sb-acf),
+.sb-workbench .widget-vbox[class*="sb-view-"] {
   min-width: min(100%, 380px) !important; }
 /* the control columns: a grid of columns at least wide enough for a label and its longest option */
 .sb-workbench .sb-controls { display: grid !important; grid-template-columns: repeat(auto-fill, minmax(300px, 1fr));

@@ -41,6 +41,7 @@ from ._analysis import Analysis, carry_over, registered_analyses, spectral_class
 from ._binding import ControlBinding, section
 from ._controls import Context
 from ._datastrip import DataStrip
+from ._export import export_control as _export_control
 from ._merit import MeritPanel
 from ._pins import MAX_PINS, PIN_STYLES, Pin, PinBoard, auto_labels, settings_of
 from ._scheduler import BACKGROUND_SECONDS, COALESCE_SECONDS, Scheduler
@@ -238,7 +239,8 @@ class Workbench(W.VBox):
                               layout=W.Layout(width="100%", flex_flow="row wrap")), "medium")
         main = gapped(W.VBox([gapped(self._binding.box, "wide"), views, self._progress, self._status,
                               section("Figures of merit"), self._merit.widget,
-                              section("Pins"), self._board.widget],
+                              section("Pins"), self._board.widget,
+                              section("Picture"), _export_control(self)],
                              layout=W.Layout(width="100%")), "small")
         children = [style_sheet(), self._strip.widget, main]
         self._panel = self._freeze_panel()
@@ -886,6 +888,18 @@ class Workbench(W.VBox):
         from ..freeze import freeze
 
         return freeze(self.freeze_state(), path=path, style=style)
+
+    def export(self, path: Any, *, theme: str = "light", scale: float = 2.0):
+        """Write the views as shown (traces, bands, pins' legend, axis labels, a caption of the
+        settings) to ``path``: ``.svg``, or ``.png`` (needs resvg-py: ``pip install "specbench[export]"``).
+
+        ``theme`` is ``"light"`` or ``"dark"`` (JupyterLab's theme colours); ``scale`` the PNG's
+        pixels per SVG unit. Returns the path written. The widget's "Export picture" button does
+        the same.
+        """
+        from ._export import export_bench
+
+        return export_bench(self, path, theme=theme, scale=scale)
 
     def __repr__(self) -> str:
         s = self._session

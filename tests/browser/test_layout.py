@@ -148,3 +148,17 @@ def test_nothing_scrolls_sideways_or_is_clipped(lab, width):
         use_theme(lab, "JupyterLab Light")  # the theme is a server setting, shared by the tests
     bad = {k: v for k, v in seen.items() if v}
     assert not bad, "\n".join(f"{k}:\n  " + "\n  ".join(v) for k, v in bad.items())
+
+
+def test_the_export_button_writes_the_picture_from_the_browser(lab):
+    lab.open(notebook(BENCH_CELL, PIN_CELL), "export.ipynb")
+    lab.run_all()
+    lab.wait_for(".sb-workbench .sb-psd path.area")
+    look_at(lab, ".sb-export-button")
+    lab.page.locator(".sb-export-path input").fill("from_browser.png")
+    lab.page.locator(".sb-export-path input").press("Enter")
+    lab.page.locator(".sb-export-button").click()
+    lab.page.locator(".sb-export-result", has_text="Wrote").wait_for()
+    written = lab.server.root / lab.folder / "from_browser.png"
+    assert written.read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"
+    lab.screenshot("export-row", show=".sb-export-button")
