@@ -83,7 +83,8 @@ def local_floor(spec: Any, dens: np.ndarray | None = None, block: int | None = N
         med[-1] = np.median(dens[(nb - 1) * b:])
     nu = _interior_dof(spec, lay)
     nub = nu[np.arange(nb) * b + b // 2]  # the dof vary slowly: the block centre's
-    med = med / (stats.chi2.ppf(0.5, nub) / nub)
+    uniq, inv = np.unique(nub, return_inverse=True)
+    med = med / (stats.chi2.ppf(0.5, uniq) / uniq)[inv]
     centres = np.arange(nb) * b + (b - 1) / 2
     with np.errstate(divide="ignore"):
         lg = np.log(np.maximum(med, np.finfo(float).tiny))
