@@ -69,6 +69,39 @@ def nfft_field(help_text: str) -> Any:
     )
 
 
+def segment_length_field(default: int = 1024) -> Any:
+    return param(
+        default,
+        Interval(int, 4, None),
+        label="Segment length",
+        unit="samples",
+        scale="log2",
+        group="window",
+        help="Samples per segment: longer gives finer resolution and fewer averages.",
+    )
+
+
+def overlap_field(default: float = 0.5) -> Any:
+    return param(
+        default,
+        Interval(float, 0, 1, closed="left"),
+        label="Overlap",
+        group="window",
+        help="Fraction of each segment shared with the next.",
+    )
+
+
+def gaps_skip_field() -> Any:
+    """``gaps="error" | "skip"`` of the segment-averaging estimators (one data-strip control)."""
+    return param(
+        "error",
+        Options(("error", "skip")),
+        label="Gaps",
+        group="data",
+        help="error: non-finite samples are an error; skip: leave out segments that touch them.",
+    )
+
+
 def confidence_field() -> Any:
     return param(
         0.95,

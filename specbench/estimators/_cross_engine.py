@@ -17,28 +17,14 @@ number of present pairs per lag is returned beside the sums.
 from __future__ import annotations
 
 import math
-import threading
 
 import numpy as np
 import scipy.fft
 from numpy.lib.stride_tricks import sliding_window_view
 
-from ._engine import block_segments, map_spans
+from ._engine import _scratch, block_segments, map_spans
 
 __all__ = ["cross_segment_products", "lag_products_matrix", "work_dtype"]
-
-_LOCAL = threading.local()
-
-
-def _scratch(name: str, shape: tuple[int, ...], dtype: np.dtype) -> np.ndarray:
-    store = getattr(_LOCAL, "buffers", None)
-    if store is None:
-        store = _LOCAL.buffers = {}
-    buf = store.get(name)
-    if buf is None or buf.shape != shape or buf.dtype != dtype:
-        buf = store[name] = np.empty(shape, dtype=dtype)
-    return buf
-
 
 def work_dtype(xs) -> np.dtype:
     """float32 when every channel is float32 / a small integer, float64 otherwise."""

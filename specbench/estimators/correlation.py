@@ -182,6 +182,9 @@ class CrossCorrelation(Estimator):
     band: str = _band_field("white: for a white series; bartlett: for two autocorrelated series.")
     detrend: str = detrend_field()
     confidence: float = confidence_field()
+    gaps: str = param("error", Options(("error", "pairs")), label="Gaps", group="data",
+                      help="error: non-finite samples are an error; pairs: lag products over the samples "
+                           "present in both channels.")
 
     def __call__(self, x: Any, y: Any = None, *, fs: float | None = None,
                  pair: tuple[int | str, int | str] | None = None) -> Correlation:
@@ -233,15 +236,22 @@ class CrossCorrelation(Estimator):
             raise InputError("CrossCorrelation supports real data only.")
         n = a.shape[-1]
         m = _max_lag_samples("CrossCorrelation", self.max_lag, sx.fs, n)
-        expect_passes(4 if self.normalize or self.band == "bartlett" else 2)
-        with Timer() as t:
-            pos = detrended_copyless_products(a, b, m, self.detrend)[0]
-            neg = detrended_copyless_products(b, a, m, self.detrend)[0]
-            need_auto = True  # the autocorrelations also serve Correlation.delay()
-            if need_auto:
-                raa = detrended_copyless_products(a, a, m, self.detrend)[0] / n
-                rbb = detrended_copyless_products(b, b, m, self.detrend)[0] / n
-        s = np.concatenate([neg[:0:-1], pos]) / n
+        pairs = None
+        if self.gaps == "pairs" and (_has_nonfinite(a) or _has_nonfinite(b)):
+            with Timer() as t:
+                s, raa, rbb, pairs = _present_pair_correlations(a[0], b[0], m, self.detrend)
+            n = int(pairs[m])  # pairs present at lag 0
+            need_auto = True
+        else:
+            expect_passes(4 if self.normalize or self.band == "bartlett" else 2)
+            with Timer() as t:
+                pos = detrended_copyless_products(a, b, m, self.detrend)[0]
+                neg = detrended_copyless_products(b, a, m, self.detrend)[0]
+                need_auto = True  # the autocorrelations also serve Correlation.delay()
+                if need_auto:
+                    raa = detrended_copyless_products(a, a, m, self.detrend)[0] / n
+                    rbb = detrended_copyless_products(b, b, m, self.detrend)[0] / n
+            s = np.concatenate([neg[:0:-1], pos]) / n
         if not np.all(np.isfinite(s)):
             raise nonfinite_error(np.vstack([a, b]), "CrossCorrelation")
         norm = math.sqrt(raa[0] * rbb[0]) if need_auto and raa[0] * rbb[0] > 0 else 1.0
@@ -270,5 +280,60 @@ class CrossCorrelation(Estimator):
             kind="cross",
             band=self.band,
             confidence=self.confidence,
-            info=dict(max_lag_samples=m, compute_seconds=t.seconds, auto=(raa, rbb), norm=norm),
+            info=dict(max_lag_samples=m, compute_seconds=t.seconds, auto=(raa, rbb), norm=norm,
+                      pairs=pairs),
         )
+
+
+def _has_nonfinite(x: np.ndarray) -> bool:
+    """Whether ``x`` holds a NaN or inf, scanned in chunks (no full-size mask)."""
+    if x.dtype.kind not in "fc":
+        return False
+    chunk = 1 << 16
+    return any(not np.all(np.isfinite(x[..., t0 : t0 + chunk])) for t0 in range(0, x.shape[-1], chunk))
+
+
+def _present_pair_correlations(a: np.ndarray, b: np.ndarray, m: int, detrend: str):
+    """Cross- and autocovariances over the samples present in both factors (gaps as NaN).
+
+    The mean of each channel's present samples is removed (``detrend="constant"``); the lag
+    sums and the present-pair counts ``P_k`` come from one blocked FFT pass
+    (:func:`~specbench.estimators._cross_engine.lag_products_matrix`).  Lag ``k`` is
+    ``S_k / P_k * (P_0 - |k|) / P_0``: without gaps ``S_k / N``, the estimator's usual
+    (biased) divisor.  Returns ``(r_ab over -m..m, r_aa, r_bb over 0..m, pairs over -m..m)``.
+    """
+    from ._cross_engine import lag_products_matrix
+
+    if detrend == "linear":
+        raise InputError(
+            "CrossCorrelation(gaps='pairs') removes the mean of the present samples; a least-squares "
+            "line through gaps is not supported. Use detrend='constant' or 'none'.", field="detrend",
+            owner="CrossCorrelation",
+        )
+    mu = np.zeros(2)
+    if detrend == "constant":
+        for i, ch in enumerate((a, b)):
+            tot, cnt = 0.0, 0
+            for t0 in range(0, ch.shape[-1], 1 << 16):
+                seg = np.asarray(ch[t0 : t0 + (1 << 16)], dtype=np.float64)
+                ok = np.isfinite(seg)
+                tot += float(seg[ok].sum())
+                cnt += int(ok.sum())
+            if cnt == 0:
+                raise InputError("A channel has no finite sample; CrossCorrelation has nothing to correlate.")
+            mu[i] = tot / cnt
+    sums, pairs = lag_products_matrix([a, b], m, center=mu, gaps=True)
+    k = np.arange(m + 1)
+    if np.any(pairs[0, 1] < 1) or np.any(pairs[1, 0] < 1):
+        raise InputError(
+            f"Some lags up to {m} samples have no pair of present samples (the gaps are too long); "
+            "choose a smaller max_lag or a span with fewer gaps."
+        )
+
+    def lagged(i: int, j: int) -> np.ndarray:
+        p0 = pairs[i, j, 0]
+        return sums[i, j] / pairs[i, j] * np.maximum(p0 - k, 1) / p0
+
+    r = np.concatenate([lagged(1, 0)[:0:-1], lagged(0, 1)])
+    counts = np.concatenate([pairs[1, 0][:0:-1], pairs[0, 1]])
+    return r, lagged(0, 0), lagged(1, 1), counts

@@ -34,12 +34,23 @@ from scipy import optimize, stats
 
 from .._errors import InputError, SpecbenchWarning
 from ._base import Estimator
-from ._common import Timer, confidence_field, detrend_field, nfft_field, nonfinite_error, too_short, window_field
+from ._common import (
+    Timer,
+    confidence_field,
+    detrend_field,
+    gaps_skip_field,
+    nfft_field,
+    nonfinite_error,
+    overlap_field,
+    segment_length_field,
+    too_short,
+    window_field,
+)
 from ._cross_engine import cross_segment_products
 from ._dof import welch_dof
 from ._engine import as_2d, clean_segments
 from ._input import _is_signal_like, as_samples
-from ._params import Interval, Options, param
+from ._params import Options, param
 from ._results import density_unit, power_unit
 from .windows import get_window, window_info, window_label
 
@@ -402,22 +413,8 @@ class CrossSpectrum(Estimator):
     title: ClassVar[str] = "Cross spectrum (averaged segments)"
 
     window: Any = window_field("hann")
-    segment_length: int = param(
-        1024,
-        Interval(int, 4, None),
-        label="Segment length",
-        unit="samples",
-        scale="log2",
-        group="window",
-        help="Samples per segment: longer gives finer resolution and fewer averages.",
-    )
-    overlap: float = param(
-        0.5,
-        Interval(float, 0, 1, closed="left"),
-        label="Overlap",
-        group="window",
-        help="Fraction of each segment shared with the next.",
-    )
+    segment_length: int = segment_length_field()
+    overlap: float = overlap_field()
     detrend: str = detrend_field()
     scaling: str = param(
         "density",
@@ -428,13 +425,7 @@ class CrossSpectrum(Estimator):
     )
     nfft: int | None = nfft_field("FFT length per segment (>= segment length; zero padding interpolates).")
     confidence: float = confidence_field()
-    gaps: str = param(
-        "error",
-        Options(("error", "skip")),
-        label="Gaps",
-        group="data",
-        help="error: non-finite samples are an error; skip: leave out segments that touch them.",
-    )
+    gaps: str = gaps_skip_field()
 
     def _check(self) -> None:
         if self.nfft is not None and self.nfft < self.segment_length:
@@ -724,8 +715,8 @@ def correlation_delay(corr: Any, half_width: int = 32) -> Delay:
         wgt[-1] = 1.0
     df = fs / nfft
     num = float(np.sum(wgt * (2 * np.pi * f) ** 2 * np.clip(sxx * syy - sxy**2, 0.0, None)) * df)
-    pairs = corr.info.get("pairs_at_peak")
-    t_len = (pairs if pairs is not None else corr.n) / fs
+    pairs = corr.info.get("pairs")  # present pairs per lag, with gaps
+    t_len = (float(pairs[i0]) if pairs is not None else corr.n) / fs
     if curv >= 0 or not math.isfinite(curv):
         raise InputError("The cross-correlation has no peak to fit (flat or noisy around its maximum). "
                          "Choose a larger max_lag or a longer record.")

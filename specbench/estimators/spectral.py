@@ -35,12 +35,15 @@ from ._common import (
     check_finite_result,
     confidence_field,
     detrend_field,
+    gaps_skip_field,
     nfft_field,
     nonfinite_error,
     onesided_for,
+    overlap_field,
     restore_shape,
     samples_of,
     scaling_field,
+    segment_length_field,
     sides_field,
     too_short,
     window_field,
@@ -272,22 +275,8 @@ class Welch(SpectralEstimator):
     title: ClassVar[str] = "Welch (averaged segments)"
 
     window: Any = window_field("hann")
-    segment_length: int = param(
-        1024,
-        Interval(int, 4, None),
-        label="Segment length",
-        unit="samples",
-        scale="log2",
-        group="window",
-        help="Samples per segment: longer gives finer resolution and fewer averages.",
-    )
-    overlap: float = param(
-        0.5,
-        Interval(float, 0, 1, closed="left"),
-        label="Overlap",
-        group="window",
-        help="Fraction of each segment shared with the next.",
-    )
+    segment_length: int = segment_length_field()
+    overlap: float = overlap_field()
     average: str = param(
         "mean",
         Options(("mean", "median")),
@@ -300,13 +289,7 @@ class Welch(SpectralEstimator):
     sides: str = sides_field()
     nfft: int | None = nfft_field("FFT length per segment (>= segment length; zero padding interpolates).")
     confidence: float = confidence_field()
-    gaps: str = param(
-        "error",
-        Options(("error", "skip")),
-        label="Gaps",
-        group="data",
-        help="error: non-finite samples are an error; skip: leave out segments that touch them.",
-    )
+    gaps: str = gaps_skip_field()
 
     def _check(self) -> None:
         if self.nfft is not None and self.nfft < self.segment_length:

@@ -173,11 +173,11 @@ class CrossHost:
                                  tooltip="The reference channel: phase and gain are of y relative to x.")
         self.y_menu = W.Dropdown(options=["-"], description="y (output)", layout=W.Layout(width="210px"),
                                  tooltip="The channel compared with x.")
-        self.band_lo = W.BoundedFloatText(value=0.0, min=0.0, max=1e12, description="delay band", step=1.0,
-                                          layout=W.Layout(width="190px"),
+        self.band_lo = W.BoundedFloatText(value=0.0, min=0.0, max=1e12, description="delay band (Hz)", step=1.0,
+                                          layout=W.Layout(width="200px"), style={"description_width": "auto"},
                                           tooltip="Lower edge (Hz) of the band the delay is fitted over.")
         self.band_hi = W.BoundedFloatText(value=0.0, min=0.0, max=1e12, description="to", step=1.0,
-                                          layout=W.Layout(width="130px"),
+                                          layout=W.Layout(width="120px"), style={"description_width": "auto"},
                                           tooltip="Upper edge (Hz). First set to the top of the clearly coherent "
                                                   "band (smoothed coherence above 0.5); 0 means half the "
                                                   "sample rate.")

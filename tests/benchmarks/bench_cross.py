@@ -17,36 +17,13 @@ are only meaningful side by side in one run on one machine.
 from __future__ import annotations
 
 import argparse
-import gc
 import itertools
-import statistics
-import time
-import tracemalloc
 
 import numpy as np
 import scipy.signal
+from bench_welch import peak_extra, timed  # same folder: the script's own path is on sys.path
 
 import specbench as sb
-
-
-def timed(fn, repeats):
-    fn()  # warm-up
-    times = []
-    for _ in range(repeats):
-        gc.collect()
-        t0 = time.perf_counter()
-        fn()
-        times.append(time.perf_counter() - t0)
-    return statistics.median(times)
-
-
-def peak_extra(fn):
-    gc.collect()
-    tracemalloc.start()
-    fn()
-    _, peak = tracemalloc.get_traced_memory()
-    tracemalloc.stop()
-    return peak
 
 
 def main():
