@@ -69,7 +69,8 @@ def _add_demo_arguments(parser: argparse.ArgumentParser) -> None:
         type=_port,
         default=None,
         metavar="N",
-        help="port for JupyterLab (default: JupyterLab's own, 8888 or the next free one)",
+        help="port for JupyterLab (default: 8888 or the next free one, chosen before the start so that "
+             "the printed URL is right)",
     )
     parser.add_argument(
         "--no-browser",
@@ -113,8 +114,50 @@ def _run_demo(args: argparse.Namespace) -> int:
             f"kept     {name}: your copy differs from the shipped one and was left as it is "
             f"(delete it and rerun to get the shipped version)"
         )
+    port = args.port if args.port is not None else free_port()
+    token, note = demo_token(os.environ.get("JUPYTER_TOKEN"))
+    if note:
+        print(note)
+    if _is_root():
+        print("Running as root: JupyterLab is started with --allow-root (it refuses root otherwise). "
+              "It still listens on 127.0.0.1 only and asks for the token; prefer an ordinary user account.")
     print(f"Starting JupyterLab in {target} on {DEMO_NOTEBOOK} (press Ctrl-C twice to stop).")
-    return launch_lab(lab_command(target, port=args.port, open_browser=not args.no_browser), target)
+    print(f"Open (the token is the password of this server; keep it private):\n"
+          f"    http://127.0.0.1:{port}/lab/tree/{DEMO_NOTEBOOK}?token={token}")
+    env = dict(os.environ, JUPYTER_TOKEN=token)  # in the environment: not visible to `ps` like an argument
+    return launch_lab(lab_command(target, port=port, open_browser=not args.no_browser), target, env=env)
+
+
+def demo_token(given: str | None) -> tuple[str, str]:
+    """The server's token: ``JUPYTER_TOKEN`` when set to a usable value, else a new random one
+    (``secrets.token_urlsafe``, 192 bits).  An empty token would start the server without
+    authentication, so it is never used; the second item says why a given one was replaced."""
+    import secrets
+
+    if given is not None and given.strip() == given and len(given) >= 8:
+        return given, ""
+    token = secrets.token_urlsafe(24)
+    if given is None:
+        return token, ""
+    why = "is empty" if not given.strip() else "is shorter than 8 characters or has spaces"
+    return token, (f"JUPYTER_TOKEN {why}; it would leave the server (nearly) without authentication, so a "
+                   "random token is used instead.")
+
+
+def free_port(first: int = 8888, tries: int = 100) -> int:
+    """8888 or the next port free on 127.0.0.1 (as JupyterLab would choose), so the printed URL is right."""
+    import socket
+
+    for port in range(first, first + tries):
+        with socket.socket() as sock:
+            try:
+                sock.bind(("127.0.0.1", port))
+            except OSError:
+                continue
+            return port
+    with socket.socket() as sock:
+        sock.bind(("127.0.0.1", 0))
+        return sock.getsockname()[1]
 
 
 def example_notebooks() -> list[Path]:
@@ -171,6 +214,7 @@ def lab_command(root: Path, *, port: int | None, open_browser: bool) -> list[str
         "jupyterlab",
         "--ip=127.0.0.1",
         f"--ServerApp.root_dir={root}",
+        # the token comes from JUPYTER_TOKEN (set by _run_demo to a random one): never without one
     ]
     if port is not None:
         command.append(f"--port={port}")
@@ -187,7 +231,7 @@ def _is_root() -> bool:
     return hasattr(os, "geteuid") and os.geteuid() == 0
 
 
-def launch_lab(command: Sequence[str], cwd: Path) -> int:
+def launch_lab(command: Sequence[str], cwd: Path, env: dict | None = None) -> int:
     """Run JupyterLab in the foreground until it exits; return its exit code.
 
     On POSIX the specbench process becomes JupyterLab (``exec``), so Ctrl-C, SIGTERM and
@@ -198,8 +242,8 @@ def launch_lab(command: Sequence[str], cwd: Path) -> int:
         sys.stdout.flush()
         sys.stderr.flush()
         os.chdir(cwd)
-        os.execv(command[0], command)  # does not return
-    process = subprocess.Popen(command, cwd=cwd)
+        os.execve(command[0], command, env if env is not None else dict(os.environ))  # does not return
+    process = subprocess.Popen(command, cwd=cwd, env=env)
     while True:
         try:
             return process.wait()

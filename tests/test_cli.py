@@ -9,6 +9,7 @@ from __future__ import annotations
 
 import json
 import os
+import re
 import shutil
 import socket
 import subprocess
@@ -59,9 +60,13 @@ def launches(monkeypatch):
     """Replace the JupyterLab launcher by a recorder; JupyterLab counts as installed."""
     calls = []
 
-    def record(command, cwd):
+    def record(command, cwd, env=None):
         calls.append((list(command), Path(cwd)))
+        calls_env.append(env)
         return 0
+
+    calls_env: list = []
+    monkeypatch.setattr(cli, "_last_env", calls_env, raising=False)
 
     monkeypatch.setattr(cli, "launch_lab", record)
     monkeypatch.setattr(cli, "missing_lab_modules", lambda: [])
@@ -129,10 +134,13 @@ class TestDemoCommand:
         assert "--ip=127.0.0.1" in command
         assert f"--ServerApp.root_dir={target}" in command
         assert "--LabApp.default_url=/lab/tree/quickstart.ipynb" in command
-        assert not any(arg.startswith("--port") for arg in command)
+        # the port is chosen before the start (8888 or the next free one), so the printed URL is right
+        ports = [int(arg.split("=")[1]) for arg in command if arg.startswith("--port=")]
+        assert len(ports) == 1 and ports[0] >= 8888
+        out = capsys.readouterr().out
+        assert f"http://127.0.0.1:{ports[0]}/lab/tree/quickstart.ipynb?token=" in out
         assert "--no-browser" not in command
         assert (target / "quickstart.ipynb").is_file()
-        out = capsys.readouterr().out
         assert "copied   quickstart.ipynb" in out
         assert f"Starting JupyterLab in {target}" in out
 
@@ -153,7 +161,7 @@ class TestDemoCommand:
 
     def test_launcher_exit_code_is_returned(self, shipped, tmp_path, monkeypatch):
         monkeypatch.setattr(cli, "missing_lab_modules", lambda: [])
-        monkeypatch.setattr(cli, "launch_lab", lambda command, cwd: 3)
+        monkeypatch.setattr(cli, "launch_lab", lambda command, cwd, env=None: 3)
         assert cli.main(["demo", "--dir", str(tmp_path / "d")]) == 3
 
     def test_kept_copy_is_announced(self, shipped, launches, tmp_path, capsys):
@@ -318,3 +326,49 @@ def test_demo_serves_the_quickstart(tmp_path):
     # the URL JupyterLab prints (and opens) lands on the notebook; Jupyter Server 2 prints
     # "?token=..." in place of a token taken from the environment
     assert f"http://127.0.0.1:{port}/lab/tree/quickstart.ipynb?token=" in text
+
+
+class TestDemoAuthentication:
+    """`specbench demo` never serves without a token, and says when it runs as root."""
+
+    def test_random_token_in_the_environment_and_the_printed_url(self, shipped, launches, tmp_path, capsys,
+                                                                  monkeypatch):
+        monkeypatch.delenv("JUPYTER_TOKEN", raising=False)
+        assert cli.main(["demo", "--dir", str(tmp_path / "d"), "--port", "9124", "--no-browser"]) == 0
+        (command, _), = launches
+        env = cli._last_env[0]
+        token = env["JUPYTER_TOKEN"]
+        assert len(token) >= 32 and token.isascii()
+        assert not any(token in part for part in command)  # not on the command line (visible to ps)
+        out = capsys.readouterr().out
+        assert f"http://127.0.0.1:9124/lab/tree/quickstart.ipynb?token={token}" in out
+        assert "--ip=127.0.0.1" in command
+        cli.main(["demo", "--dir", str(tmp_path / "d"), "--port", "9124"])
+        assert cli._last_env[1]["JUPYTER_TOKEN"] != token  # a new one each run
+
+    @pytest.mark.parametrize("given", ["", "   ", "abc"])
+    def test_empty_or_weak_token_is_replaced(self, shipped, launches, tmp_path, capsys, monkeypatch, given):
+        monkeypatch.setenv("JUPYTER_TOKEN", given)
+        cli.main(["demo", "--dir", str(tmp_path / "d"), "--port", "9125"])
+        token = cli._last_env[0]["JUPYTER_TOKEN"]
+        assert token != given and len(token) >= 32
+        assert re.search(r"JUPYTER_TOKEN (is empty|is shorter than 8 characters or has spaces); it would leave "
+                         r"the server \(nearly\) without authentication, so a random token is used instead",
+                         capsys.readouterr().out)
+
+    def test_a_given_token_is_kept(self, shipped, launches, tmp_path, monkeypatch):
+        monkeypatch.setenv("JUPYTER_TOKEN", "a-long-enough-token")
+        cli.main(["demo", "--dir", str(tmp_path / "d"), "--port", "9126"])
+        assert cli._last_env[0]["JUPYTER_TOKEN"] == "a-long-enough-token"
+
+    @pytest.mark.parametrize("root", [True, False])
+    def test_root_mode_is_announced(self, shipped, launches, tmp_path, capsys, monkeypatch, root):
+        monkeypatch.setattr(cli, "_is_root", lambda: root)
+        cli.main(["demo", "--dir", str(tmp_path / "d"), "--port", "9127"])
+        out = capsys.readouterr().out
+        assert ("Running as root: JupyterLab is started with --allow-root" in out) is root
+
+    def test_free_port_is_free(self):
+        port = cli.free_port()
+        with socket.socket() as sock:
+            sock.bind(("127.0.0.1", port))
