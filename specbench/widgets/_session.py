@@ -90,6 +90,8 @@ class Slot:
         self.last_of: dict[type, Any] = {}
         #: fields carried over by a method switch -> the new method's own value
         self.carried: dict[str, Any] = {}
+        #: (estimator, selection) of the last failed attempt: not retried until one changes
+        self.failed: tuple | None = None
 
     @property
     def wanted(self) -> Any:
@@ -338,7 +340,8 @@ class Session:
 
     def pending(self) -> bool:
         sel = self.next_sel or self.sel
-        return sel != self.sel or any(s.wanted != s.est or s.result is None for s in self.slots.values())
+        return sel != self.sel or any(s.wanted != s.est or (s.result is None and s.failed != (s.wanted, sel))
+                                      for s in self.slots.values())
 
     # ------------------------------------------------------------------ the update
     def plan(self, changed: set[str] | None = None) -> Job | None:
@@ -349,13 +352,14 @@ class Session:
         self.errors.pop("internal", None)
         sel_changed = sel != self.sel
         todo = [(s, s.wanted) for s in self.slots.values()
-                if sel_changed or s.wanted != s.est or s.result is None]
+                if sel_changed or s.wanted != s.est or (s.result is None and s.failed != (s.wanted, sel))]
         if not todo:
             # the controls ask for what is on screen: earlier failures no longer apply
             self.next_sel = None
             for s in self.slots.values():
                 s.next = None
-                self.errors.pop(s.name, None)
+                if s.result is not None:  # a failure that still applies (nothing changed) stays
+                    self.errors.pop(s.name, None)
             self.errors.pop("data", None)
             self.notes = []
             return None
@@ -392,9 +396,11 @@ class Session:
             if a.reverted:
                 slot.next = a.est
             if a.error is not None:
+                slot.failed = (a.est, job.sel)
                 fallback = [k for k in job.changed if self._owns(slot, k)] or self._default_keys(slot)
                 self.errors[name] = Problem(a.message, self.error_keys(slot, a.error, fallback))
                 continue
+            slot.failed = None
             slot.est, slot.result, slot.shown = a.est, a.result, slot.analysis.shown(a.result)
             slot.next = None
             slot.carried = {}

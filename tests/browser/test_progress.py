@@ -23,7 +23,8 @@ def test_progress_and_cancel(lab):
     lab.open(nb)
     lab.run_all()
     page = lab.page
-    page.locator(".sb-psd .bqplot path.line").first.wait_for()
+    page.wait_for_function(
+        "() => /Multitaper/.test((document.querySelector('.sb-status') || {}).textContent || '')", timeout=60_000)
     before = page.locator(".sb-merit-resolution .sb-merit-value").text_content()
     auto = page.locator(".sb-control-segment-length input[type=checkbox]").first
     auto.scroll_into_view_if_needed()

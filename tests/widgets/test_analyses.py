@@ -155,3 +155,19 @@ def test_an_analysis_of_every_channel(sig):
     ref = sb.Periodogram()(sig.span(1.0, 9.0))
     np.testing.assert_array_equal(full.value, ref.value)
     assert bench.selected.n_channels == 1  # the other analyses still see the chosen channel
+
+
+def test_an_analysis_that_fails_is_not_recomputed_until_its_settings_or_data_change():
+    s = sb.Signal(np.random.default_rng(0).standard_normal(500), fs=100.0)
+    ses = Session(s, [SpectrumAnalysis(), CorrelationAnalysis()], {}, DataSelection(s.channels[0], None, None))
+    ses.run()
+    assert ses.result("psd") is None and "psd" in ses.errors  # 1024 > 500 samples
+    ses.propose("acf", sb.Autocorrelation(max_lag=1.0))
+    job = ses.plan({"acf_max_lag"})
+    assert [slot.name for slot, _ in job.todo] == ["acf"]  # the failed PSD is not retried
+    job.execute()
+    ses.commit(job)
+    assert "psd" in ses.errors  # and its message stays
+    assert ses.plan() is None and "psd" in ses.errors
+    ses.propose("psd", sb.Welch(segment_length=128))
+    assert ses.run() and ses.result("psd") is not None and "psd" not in ses.errors
