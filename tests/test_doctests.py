@@ -10,6 +10,8 @@ MODULES = [
     "specbench.estimators.windows",
     "specbench.estimators.correlation",
     "specbench.estimators.cross",
+    "specbench.measure._bands",
+    "specbench.measure._tones",
 ]
 
 

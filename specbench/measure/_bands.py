@@ -227,7 +227,16 @@ def band_core(spec: Any, f1: float, f2: float, *, dens: np.ndarray | None = None
 
 # ---------------------------------------------------------------- public measurements
 def band_power(spec: Any, f1: float, f2: float) -> Measurement:
-    """Power of the density over ``[f1, f2]`` Hz with a confidence interval (see the module notes)."""
+    """Power of the density over ``[f1, f2]`` Hz with a confidence interval (see the module notes).
+
+    Examples
+    --------
+    >>> import numpy as np, specbench as sb
+    >>> x = np.random.default_rng(0).standard_normal(100_000)      # white, unit variance, fs = 1 kHz
+    >>> m = sb.Welch(segment_length=1024)(x, fs=1000.0).band_power(100, 150)
+    >>> print(f"{m.value:.4f} in [{m.lower:.4f}, {m.upper:.4f}], {m.dof:.0f} dof; white: {2 * 50 / 1000:.4f}")
+    0.1018 in [0.0990, 0.1048], 9506 dof; white: 0.1000
+    """
     f1, f2 = _check_band(spec, f1, f2, "band_power")
     p, nu, bins = band_core(spec, f1, f2)
     lo, hi = _chi2_interval(p, nu, spec.confidence)

@@ -231,7 +231,17 @@ def _tone_gain(st: Structure, spec: Any) -> float:
 
 def tones(spec: Any, max_count: int = 10, *, false_alarm: float = 0.01, f1: float | None = None,
           f2: float | None = None) -> Tones:
-    """Tones above the local noise floor, strongest first (see the module notes for the rules)."""
+    """Tones above the local noise floor, strongest first (see the module notes for the rules).
+
+    Examples
+    --------
+    >>> import numpy as np, specbench as sb
+    >>> t = np.arange(100_000) / 1000.0
+    >>> x = np.sin(2 * np.pi * 123.4567 * t) + 0.01 * np.random.default_rng(0).standard_normal(t.size)
+    >>> q = sb.Welch(segment_length=4096, window="blackmanharris")(x, fs=1000.0).tones()[0]
+    >>> print(f"{q.freq:.4f} Hz +- {q.freq_stderr:.1e} Hz, RMS {q.amplitude:.4f} (sine of amplitude 1: 0.7071)")
+    123.4567 Hz +- 1.0e-05 Hz, RMS 0.7071 (sine of amplitude 1: 0.7071)
+    """
     if np.ndim(spec.value) == 2 and np.shape(spec.value)[0] == 1:
         spec = spec.channel(0)
     if np.ndim(spec.value) != 1:

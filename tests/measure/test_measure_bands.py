@@ -39,6 +39,7 @@ CASES = [
     ("periodogram-boxcar", sb.Periodogram(detrend="none"), 512),
     ("multitaper-nw3", sb.Multitaper(bandwidth=3.0, detrend="none"), 512),
     ("multitaper-fixed", sb.Multitaper(bandwidth=2.0, adaptive=False, detrend="none"), 256),
+    ("correlogram-parzen", sb.Correlogram(max_lag=32, detrend="none"), 2048),
 ]
 
 
