@@ -69,6 +69,10 @@ from .measure import MeasurementError, advise  # noqa: E402
 
 __all__ += ["MeasurementError", "advise"]
 
+from .models import AllanDeviation, AllanResult  # noqa: E402
+
+__all__ += ["AllanDeviation", "AllanResult"]
+
 __all__ += ["Signal", "demo", "demos", "load", "Workbench", "Settings", "load_settings", "read_settings",
             "save_settings"]
 __all__ += ["Fingerprint", "check_data", "fingerprint"]

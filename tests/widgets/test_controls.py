@@ -6,6 +6,7 @@ import specbench as sb
 from specbench.estimators import estimator_classes
 from specbench.estimators._params import Boolean, Interval, Optional, Options, ParamSpec
 from specbench.estimators.windows import WINDOWS, Window
+from specbench.models._allan import TauGrid
 from specbench.widgets._controls import (
     BoolControl,
     ChoiceControl,
@@ -20,6 +21,7 @@ from specbench.widgets._controls import (
 CTX = Context(n=100_000, fs=1000.0)
 
 EXPECTED = {Options: ChoiceControl, Boolean: BoolControl, Window: WindowControl, Optional: OptionalControl}
+EXPECTED[TauGrid] = ChoiceControl  # AllanDeviation.taus: the named grids (explicit times from code)
 
 
 def _all_fields():
