@@ -36,7 +36,7 @@ from scipy import integrate, stats
 
 from .._errors import InputError
 from ..estimators._base import Estimator
-from ..estimators._engine import _TRACKER, as_2d
+from ..estimators._engine import _TRACKER, as_2d, check_lazy, is_lazy, read_span
 from ..estimators._input import as_samples
 from ..estimators._params import Boolean, Interval, Options, param
 
@@ -327,6 +327,8 @@ class AllanDeviation(Estimator):
         s = as_samples(x, fs, min_samples=3)
         if np.iscomplexobj(s.data):
             raise InputError("AllanDeviation supports real data only; pass the real and imaginary parts as channels.")
+        if is_lazy(s.data):
+            check_lazy(s.data)
         data = as_2d(s.data)
         c, n = data.shape
         points = n + 1 if self.input == "rate" else n
@@ -396,10 +398,23 @@ def _identify(ms: np.ndarray, avar: np.ndarray) -> np.ndarray:
         slope = (padded[:-2] + padded[1:-1] + padded[2:]) / 3.0
     alpha = np.clip(np.rint(-slope - 1.0), -2, 2).astype(int)
     alpha[alpha == 1] = 2
+    # phase-like noise (quantization) can only dominate the SHORTEST averaging times of a
+    # rate record: a steep fall at long tau is the noise of the estimate (or the roll-off
+    # of a Gauss-Markov term), which is white-rate-like there
+    lead = 0
+    while lead < alpha.size and alpha[lead] == 2:
+        lead += 1
+    alpha[lead:][alpha[lead:] == 2] = 0
     return alpha
 
 
 # ------------------------------------------------------------------------------ engine
+def _read(x: Any, a: int, b: int) -> np.ndarray:
+    """Samples ``a:b`` of one channel as float64 (a view of NumPy input converted per block;
+    one computed chunk of a dask array, never the whole record)."""
+    return np.asarray(read_span(x, a, b), dtype=np.float64)
+
+
 class _Cumulative:
     """Blocks of the cumulative sums ``C`` of one channel, rebuilt on demand from one
     checkpoint per block; an LRU cache bounds the memory."""
@@ -413,13 +428,13 @@ class _Cumulative:
         self.offset = 0.0
         self.gaps = 0
         if kind == "rate":
-            first = np.asarray(x[: min(n, BLOCK)], dtype=np.float64)
+            first = _read(x, 0, min(n, BLOCK))
             fin = first[np.isfinite(first)]
             self.offset = float(fin.mean()) if fin.size else 0.0
             sums = np.zeros(self.nblocks + 1)
             nan = np.zeros(self.nblocks + 1, dtype=np.int64)
             for b in range(self.nblocks):
-                blk = np.asarray(x[b * BLOCK : (b + 1) * BLOCK], dtype=np.float64)
+                blk = _read(x, b * BLOCK, (b + 1) * BLOCK)
                 bad = ~np.isfinite(blk)
                 nb = int(bad.sum())
                 if nb:
@@ -432,7 +447,7 @@ class _Cumulative:
         else:
             cnt = 0
             for b in range(self.nblocks):
-                blk = np.asarray(x[b * BLOCK : (b + 1) * BLOCK], dtype=np.float64)
+                blk = _read(x, b * BLOCK, (b + 1) * BLOCK)
                 cnt += int((~np.isfinite(blk)).sum())
             self.gaps = cnt
 
@@ -445,7 +460,7 @@ class _Cumulative:
         stop = min(self.points, a + BLOCK)
         if self.kind == "rate":
             # C[a + t] = check[b] + sum_{j=a}^{a+t-1} (y_j - offset), t = 0 .. stop-a-1
-            y = np.asarray(self.x[a : stop - 1], dtype=np.float64) - self.offset
+            y = _read(self.x, a, stop - 1) - self.offset
             cv = np.empty(stop - a)
             cv[0] = self.check[b]
             bad = None
@@ -460,7 +475,7 @@ class _Cumulative:
             np.cumsum(y, out=cv[1:])
             cv[1:] += self.check[b]
         else:
-            cv = np.asarray(self.x[a:stop], dtype=np.float64).copy()
+            cv = _read(self.x, a, stop).copy()
             bad = None
         out = (cv, bad)
         self.cache[b] = out
