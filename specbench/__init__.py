@@ -69,9 +69,9 @@ from .measure import MeasurementError, advise  # noqa: E402
 
 __all__ += ["MeasurementError", "advise"]
 
-from .models import AllanDeviation, AllanResult  # noqa: E402
+from .models import AllanDeviation, AllanResult, DiscreteModel, NoiseFitError, NoiseModel, fit_noise  # noqa: E402
 
-__all__ += ["AllanDeviation", "AllanResult"]
+__all__ += ["AllanDeviation", "AllanResult", "DiscreteModel", "NoiseFitError", "NoiseModel", "fit_noise"]
 
 __all__ += ["Signal", "demo", "demos", "load", "Workbench", "Settings", "load_settings", "read_settings",
             "save_settings"]
