@@ -741,4 +741,7 @@ def run(args: argparse.Namespace) -> int:
     progress.say("wrote " + ", ".join(f"{p} ({n})" for n, p in summary["paths"].items()))
     return 0
 
-from . import _cross_form  # noqa: E402,F401  (registers the CrossSpectrum and Covariance writers)
+from . import (  # noqa: E402
+    _cross_form,  # noqa: F401  (registers the CrossSpectrum and Covariance writers)
+    _noise_form,  # noqa: F401  (registers the AllanDeviation writer)
+)
