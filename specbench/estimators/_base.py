@@ -18,6 +18,11 @@ SCHEMA_VERSION = 1
 _REGISTRY: dict[str, type[Estimator]] = {}
 
 
+class ArgumentError(SettingsError, TypeError):
+    """A positional or unknown argument to an estimator (a SettingsError, and a TypeError
+    as Python's own would be)."""
+
+
 @dataclasses.dataclass(frozen=True, kw_only=True, repr=False)
 class Estimator:
     """Base of all estimators: frozen dataclass whose fields are its settings.
@@ -42,6 +47,30 @@ class Estimator:
         if "kind" not in cls.__dict__ or not cls.__dict__["kind"]:
             cls.kind = cls.__name__
         _REGISTRY[cls.kind] = cls
+
+    def __new__(cls, *args: Any, **kwargs: Any) -> Estimator:
+        # a clear message instead of the dataclass's TypeError for a positional or unknown argument
+        names = [f.name for f in dataclasses.fields(cls)] if dataclasses.is_dataclass(cls) else list(kwargs)
+        if args:
+            first = names[0] if names else "name"
+            raise ArgumentError(
+                f"{cls.__name__} takes its settings by name only; got {len(args)} positional "
+                f"argument(s) ({', '.join(repr(a) for a in args[:3])}). Write each setting by name, e.g. "
+                f"{cls.__name__}({first}=...). Its parameters are: {', '.join(names)}.",
+                owner=cls.__name__,
+            )
+        unknown = [k for k in kwargs if k not in names]
+        if unknown:
+            import difflib
+
+            k = unknown[0]
+            near = difflib.get_close_matches(k, names, n=1, cutoff=0.6)
+            hint = f" Did you mean {near[0]!r}?" if near else ""
+            raise ArgumentError(
+                f"{cls.__name__} has no parameter {k!r}.{hint} Its parameters are: {', '.join(names)}.",
+                field=near[0] if near else None, owner=cls.__name__,
+            )
+        return super().__new__(cls)
 
     def __post_init__(self) -> None:
         owner = type(self).__name__

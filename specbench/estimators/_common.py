@@ -16,6 +16,9 @@ from .windows import Window
 
 DETREND = ("none", "constant", "linear")
 
+#: largest FFT length a setting may ask for (2**24; a record longer than that needs no padding)
+NFFT_MAX = 1 << 24
+
 
 def window_field(default: str) -> Any:
     return param(
@@ -60,12 +63,13 @@ def sides_field() -> Any:
 def nfft_field(help_text: str) -> Any:
     return param(
         None,
-        Optional(Interval(int, 2, None), "no zero padding"),
+        Optional(Interval(int, 2, NFFT_MAX), "no zero padding"),
         label="FFT length",
         unit="samples",
         scale="log2",
         group="window",
         help=help_text,
+        fix=f"Zero padding beyond 2**24 = {NFFT_MAX:,} bins only interpolates and needs gigabytes per segment.",
     )
 
 
@@ -127,8 +131,73 @@ def onesided_for(sides: str, x: np.ndarray, owner: str) -> bool:
     return sides == "onesided" or (sides == "auto" and not cplx)
 
 
+def finite_failure(x: np.ndarray, owner: str) -> InputError:
+    """Error for finite data whose estimate is not finite: power overflow or constant data."""
+    n = x.shape[-1]
+    peak = 0.0
+    chunk = 1 << 20
+    for t0 in range(0, n, chunk):
+        part = np.abs(x[:, t0 : t0 + chunk])
+        if part.size:
+            peak = max(peak, float(np.max(part)))
+    kind = x.dtype if x.dtype.kind in "fc" else np.dtype(np.float64)
+    big = float(np.finfo(kind).max)
+    if peak * peak * max(n, 1) >= big or not np.isfinite(peak * peak * max(n, 1)):
+        single = kind in (np.dtype(np.float32), np.dtype(np.complex64))
+        fix = (f"Convert to double precision (x.astype(np.float64)) or scale the data, e.g. x / {peak:.0e}"
+               if single else
+               f"Scale the data before estimating, e.g. x / {peak:.0e}, and multiply the PSD by the square")
+        return InputError(
+            f"The data are finite, but their power overflows: the largest |sample| is {peak:.3g}, and its square "
+            f"summed over {n:,} samples exceeds the largest {kind.name} number ({big:.3g}). {owner} cannot "
+            f"estimate it as given. {fix}."
+        )
+    spread = np.array([float(np.ptp(x[c])) if n else 0.0 for c in range(x.shape[0])])
+    if np.any(spread == 0):
+        c = int(np.nonzero(spread == 0)[0][0])
+        where = f"Channel {c} is" if x.shape[0] > 1 else "The data are"
+        return InputError(
+            f"{where} constant (every sample equals {complex(x[c, 0]) if np.iscomplexobj(x) else float(x[c, 0]):g}): "
+            f"a constant has no spectrum to estimate, and {owner} divides by the data's variance, which is zero. "
+            "Check the channel (a disconnected sensor reads constant) or leave it out."
+        )
+    return InputError(
+        f"The data are finite (largest |sample| {peak:.3g}), but {owner} produced a non-finite estimate. "
+        f"Scale the data (e.g. x / {max(peak, 1e-300):.0e}) or check the settings."
+    )
+
+
+def zero_variance_error(x: np.ndarray, r0: np.ndarray, owner: str, names: Any = None) -> InputError | None:
+    """Error for channels whose variance after detrending is zero (constant data), else None."""
+    bad = np.nonzero(~(np.asarray(r0, dtype=float).ravel() > 0))[0]
+    if bad.size == 0:
+        return None
+    c = int(bad[0])
+    label = f"channel {names[c]!r}" if names else (f"channel {c}" if x.shape[0] > 1 else "the data")
+    return InputError(
+        f"{owner}: {label} has zero variance after detrending (constant data), so its correlation "
+        "is undefined (0/0) and its bands would be NaN. Check the channel (a disconnected sensor "
+        "reads constant) or leave it out."
+    )
+
+
+def memory_budget() -> int:
+    """Bytes one estimate may allocate beyond its input: a quarter of the machine's memory."""
+    import os
+
+    try:
+        total = os.sysconf("SC_PAGE_SIZE") * os.sysconf("SC_PHYS_PAGES")
+    except (ValueError, OSError, AttributeError):
+        total = 16 << 30
+    return int(total // 4)
+
+
 def nonfinite_error(x: np.ndarray, owner: str, limit: int | None = None) -> InputError:
-    """Error naming the count and first positions of non-finite samples in ``x[:, :limit]``."""
+    """Error naming the count and first positions of non-finite samples in ``x[:, :limit]``.
+
+    Finite data whose estimate is not finite (overflow, constant data) get
+    :func:`finite_failure` instead.
+    """
     x = x[:, :limit] if limit is not None else x
     bad_pos = []
     count = 0
@@ -140,6 +209,8 @@ def nonfinite_error(x: np.ndarray, owner: str, limit: int | None = None) -> Inpu
             ch, idx = np.nonzero(bad)
             order = np.argsort(idx, kind="stable")[: 5 - len(bad_pos)]
             bad_pos.extend((int(c), int(i) + t0) for c, i in zip(ch[order], idx[order]))
+    if count == 0:
+        return finite_failure(x, owner)
     where = ", ".join(f"sample {i}" + (f" of channel {c}" if x.shape[0] > 1 else "") for c, i in bad_pos)
     fix = "Choose a span without them, or fill or interpolate them yourself"
     fix += (", or use sb.Welch(gaps='skip') to leave out the segments that touch them." if owner == "Welch"

@@ -526,7 +526,7 @@ def segment_power(
     single = x.dtype in (np.float32, np.complex64, np.int16, np.int8, np.uint8)
     w = window.astype(np.float32 if single else np.float64, copy=False)
     nfreq = nfft if twosided else nfft // 2 + 1
-    per_block = min(block_segments(nperseg), max(1, nseg))
+    per_block = min(block_segments(max(nperseg, nfft)), max(1, nseg))  # zero padding: buffers scale with nfft
     spans, calls = [], []
     for s0 in range(0, nseg, per_block):
         s1 = min(s0 + per_block, nseg)
@@ -629,7 +629,8 @@ def _lag_block(sx: np.ndarray, sy: np.ndarray, start: int, count: int, blk: int,
         ys = _detrended_piece(sy[:, a : min(a + blk + m, n - start)], trend_y, t0)
         fx = scipy.fft.rfft(xs, n=p, axis=-1, workers=1)
         fy = scipy.fft.rfft(ys, n=p, axis=-1, workers=1)
-        acc += np.conj(fx) * fy
+        with np.errstate(over="ignore", invalid="ignore"):  # the caller reports a non-finite result
+            acc += np.conj(fx) * fy
     return acc
 
 

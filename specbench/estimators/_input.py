@@ -46,7 +46,17 @@ def _is_signal_like(obj: Any) -> bool:
     return all(hasattr(obj, a) for a in ("data", "fs", "channels", "unit"))
 
 
+#: a plain 2-D array whose last axis is at most this long, and shorter than its first, is
+#: taken for a (samples, channels) array passed the wrong way round
+TRANSPOSED_MAX = 64
+
+
 def _check_fs(fs: Any) -> float:
+    if isinstance(fs, (bool, np.bool_)):
+        raise InputError(
+            f"The sample rate fs must be a positive number in Hz, not a bool (fs={fs!r} would mean "
+            f"{int(fs)} Hz). Pass fs=<samples per second>.", field="fs",
+        )
     try:
         value = float(fs)
     except (TypeError, ValueError):
@@ -104,6 +114,15 @@ def as_samples(x: Any, fs: Any = None, *, min_samples: int = 2) -> Samples:
             )
         fs_value = _check_fs(fs)
         data, channels, unit, source = obj, None, "", None
+        if data.ndim == 2 and data.shape[1] < data.shape[0] and min_samples <= data.shape[1] <= TRANSPOSED_MAX:
+            c, n = data.shape
+            raise InputError(
+                f"The array has shape {data.shape}: {c:,} channels of {n} samples each, which looks like "
+                f"a (samples, channels) array passed the wrong way round. Samples go on the last axis: "
+                f"pass x.T (shape ({n}, {c})). If it really holds {c:,} channels of {n} samples, wrap it "
+                "as sb.Signal(x, fs=...).", field="data",
+            )
+    data = _masked_as_gaps(data)
     data = _as_numeric(data)
     if data.ndim == 0:
         raise InputError("The data is a scalar; pass at least a 1-D array of samples.")
@@ -119,6 +138,22 @@ def as_samples(x: Any, fs: Any = None, *, min_samples: int = 2) -> Samples:
 
 def _is_dask(obj: Any) -> bool:
     return type(obj).__module__.split(".")[0] == "dask" and hasattr(obj, "chunks") and hasattr(obj, "dask")
+
+
+def _masked_as_gaps(data: Any) -> Any:
+    """A numpy masked array: masked samples become NaN, i.e. gaps (the estimator's gap policy
+    applies: ``Welch(gaps="skip")`` leaves out the segments that touch them, the others
+    refuse them and name the first).  The mask is never ignored."""
+    if not isinstance(data, np.ma.MaskedArray):
+        return data
+    mask = np.ma.getmaskarray(data)
+    if not mask.any():
+        return np.ma.getdata(data)
+    kind = data.dtype.kind
+    if kind not in "fciub":
+        return np.ma.getdata(data)  # non-numeric: _as_numeric names the dtype
+    out_dtype = data.dtype if kind in "fc" and data.dtype.itemsize >= 4 else np.float64
+    return np.ma.filled(data.astype(out_dtype), np.nan)
 
 
 def _as_numeric(data: Any) -> np.ndarray:

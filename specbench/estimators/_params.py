@@ -101,8 +101,9 @@ class Interval(Constraint):
         what = "an integer" if self.kind is int else "a float"
         if self.low is None and self.high is None:
             return what
-        lo = "-inf" if self.low is None else f"{self.low:g}"
-        hi = "inf" if self.high is None else f"{self.high:g}"
+        fmt = (lambda v: f"{int(v)}") if self.kind is int else (lambda v: f"{v:g}")
+        lo = "-inf" if self.low is None else fmt(self.low)
+        hi = "inf" if self.high is None else fmt(self.high)
         left = "[" if self.closed in ("both", "left") and self.low is not None else "("
         right = "]" if self.closed in ("both", "right") and self.high is not None else ")"
         return f"{what} in the range {left}{lo}, {hi}{right}"

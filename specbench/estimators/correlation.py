@@ -20,7 +20,7 @@ from scipy import stats
 
 from .._errors import InputError
 from ._base import Estimator
-from ._common import Timer, confidence_field, detrend_field, nonfinite_error, restore_shape
+from ._common import Timer, confidence_field, detrend_field, nonfinite_error, restore_shape, zero_variance_error
 from ._engine import as_2d, expect_passes, lagged_products, trend_coefficients
 from ._input import as_samples
 from ._params import Boolean, Interval, Optional, Options, param
@@ -120,6 +120,9 @@ class Autocorrelation(Estimator):
         k = np.arange(m + 1)
         r = s / (n - k) if self.unbiased else s / n
         r0 = r[:, :1].copy()
+        err = zero_variance_error(x2, r0, "Autocorrelation", samples.channels)
+        if err is not None:
+            raise err
         rho = r / np.where(r0 > 0, r0, 1.0)
         value = rho if self.normalize else r
         scale = np.ones_like(r0) if self.normalize else r0
@@ -254,6 +257,10 @@ class CrossCorrelation(Estimator):
             s = np.concatenate([neg[:0:-1], pos]) / n
         if not np.all(np.isfinite(s)):
             raise nonfinite_error(np.vstack([a, b]), "CrossCorrelation")
+        for r_own, name in ((raa, names[0]), (rbb, names[1])):
+            err = zero_variance_error(a, r_own[:1], "CrossCorrelation", (name,))
+            if err is not None:
+                raise err
         norm = math.sqrt(raa[0] * rbb[0]) if need_auto and raa[0] * rbb[0] > 0 else 1.0
         value = s / norm if self.normalize else s
         scale = 1.0 if self.normalize else norm

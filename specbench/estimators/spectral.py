@@ -36,6 +36,7 @@ from ._common import (
     confidence_field,
     detrend_field,
     gaps_skip_field,
+    memory_budget,
     nfft_field,
     nonfinite_error,
     onesided_for,
@@ -172,6 +173,17 @@ def _averaged_periodogram(
             "segment_length, or a span with fewer gaps."
         )
     median = average == "median"
+    if median:
+        nfreq = nfft if not onesided else nfft // 2 + 1
+        need = x.shape[0] * (n_all if segments is None else segments.size) * nfreq * 8
+        if need > memory_budget():
+            raise InputError(
+                f"Median averaging keeps every segment's periodogram: {x.shape[0]} channel(s) x "
+                f"{n_all if segments is None else segments.size:,} segments x {nfreq:,} bins need "
+                f"{need / 2**30:.1f} GiB, more than the {memory_budget() / 2**30:.1f} GiB (a quarter of this "
+                "machine's memory) an estimate may take. Use average='mean', less overlap or a longer "
+                "segment_length (fewer segments), or a shorter span.", field="average", owner=type(est).__name__,
+            )
     power, nseg = segment_power(
         x, window=w, step=step, nfft=nfft, detrend=est.detrend, twosided=not onesided,
         segments=segments, keep_each=median,
@@ -433,10 +445,11 @@ def _eigen_kernel(rec: np.ndarray, js: tuple, c0: float, c1: float, nw: float, k
             buf -= (c1 * np.arange(n)).astype(work, copy=False)
         apply(j, buf, buf)
         spec = fft(buf, n=nfft, workers=1)
-        dst = np.multiply(spec.real, spec.real)
-        im = spec.imag
-        np.multiply(im, im, out=im)
-        dst += im
+        with np.errstate(over="ignore", invalid="ignore"):  # reported from the result, with the cause
+            dst = np.multiply(spec.real, spec.real)
+            im = spec.imag
+            np.multiply(im, im, out=im)
+            dst += im
         out.append(dst)
     return out
 
@@ -495,6 +508,10 @@ def _adaptive(sk: np.ndarray, lam: np.ndarray, sigma2: np.ndarray, fs: float,
     items = [(ch, f0) for ch in range(c) for f0 in range(0, f, chunk)]
 
     def run(item):
+        with np.errstate(over="ignore", invalid="ignore", divide="ignore"):  # reported from the result
+            _run(item)
+
+    def _run(item):
         ch, f0 = item
         f1 = min(f, f0 + chunk)
         spec = sk[ch, :, f0:f1]

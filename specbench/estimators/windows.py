@@ -164,6 +164,9 @@ class Window(Constraint):
         if key == "general_cosine":
             if len(args) != 1 or not _is_coefficients(args[0]):
                 raise ValueError("Write window=('general_cosine', (a0, a1, ...)) with real coefficients.")
+            if not any(float(c) != 0 for c in args[0]):
+                raise ValueError("All its coefficients are zero, so the window passes nothing. "
+                                 "Write e.g. ('general_cosine', (0.5, 0.5)), which is Hann.")
             coeffs = tuple(float(c) for c in args[0])
             return (key, coeffs)
         if not args:
@@ -220,7 +223,19 @@ def _scipy_spec(spec: WindowSpec) -> Any:
 
 @functools.lru_cache(maxsize=64)
 def _cached_window(spec: WindowSpec, n: int, dtype: str) -> np.ndarray:
+    from .._errors import SettingsError
+
+    if window_name(spec) == "dpss" and not isinstance(spec, str) and spec[1] >= n / 2:
+        raise SettingsError(
+            f"The window {spec!r} needs NW < n/2, but it is applied to {n} samples (NW < {n / 2:g}). "
+            f"Choose NW below {n / 2:g}, or a longer segment.", field="window",
+        )
     w = scipy.signal.get_window(_scipy_spec(spec), n, fftbins=True).astype(dtype)
+    if not np.any(w):
+        raise SettingsError(
+            f"The window {spec!r} of length {n} is zero everywhere, so it passes nothing. Give coefficients "
+            "that are not all zero, e.g. ('general_cosine', (0.5, 0.5)), which is Hann.", field="window",
+        )
     w.setflags(write=False)
     return w
 
@@ -397,7 +412,7 @@ def window_info(window: WindowSpec, n: int) -> WindowInfo:
     window : str or tuple
         A window name or ``(name, param, ...)``, as for the estimators.
     n : int
-        Window length in samples (at least 8).
+        Window length in samples (at least 2; the estimators accept segments that short).
 
     Examples
     --------
@@ -416,9 +431,9 @@ def window_info(window: WindowSpec, n: int) -> WindowInfo:
     except ValueError as e:
         raise settings_error("window_info", "window", Window().describe(), window, str(e)) from None
     try:
-        n = Interval(int, 8, None).check(n)
+        n = Interval(int, 2, None).check(n)
     except ValueError:
-        raise settings_error("window_info", "n", "an integer in the range [8, inf)", n) from None
+        raise settings_error("window_info", "n", "an integer in the range [2, inf)", n) from None
     try:
         return _window_info_cached(spec, n)
     except ValueError as e:
