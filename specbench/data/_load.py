@@ -326,7 +326,21 @@ def _hdf5_rate(dset, attribute: str | None, label: str) -> tuple[float | None, s
     for node in nodes:
         for name in names:
             if name in node.attrs:
-                value = float(np.asarray(node.attrs[name]).reshape(-1)[0])
+                raw = np.asarray(node.attrs[name]).reshape(-1)
+                where = f"the attribute {name!r} of {node.name} in {label.split(':')[0]}"
+                try:
+                    if raw.size == 0 or raw.dtype.kind in "USOb":
+                        raise ValueError
+                    value = float(raw[0])
+                except (TypeError, ValueError):
+                    shown = raw[0].decode(errors="replace") if raw.size and isinstance(raw[0], bytes) else (
+                        str(raw[0]) if raw.size else "nothing")
+                    unit = "seconds" if name in INTERVAL_ATTRIBUTES else "Hz"
+                    raise InputError(
+                        f"{where} holds {shown!r}, not a number of {unit}. Store the rate as a number "
+                        "(e.g. 1000.0, in Hz), or pass fs= (and fs_attribute= to read another "
+                        "attribute)."
+                    ) from None
                 rate = 1.0 / value if name in INTERVAL_ATTRIBUTES and value else value
                 return rate, f"the attribute {name!r} of {node.name} in {label.split(':')[0]}"
     if attribute:
@@ -363,6 +377,9 @@ def _read_raw(path: Path, o: dict) -> Record:
     if not isinstance(n_ch, (int, np.integer)) or isinstance(n_ch, bool) or n_ch < 1:
         raise InputError(f"n_channels must be a positive whole number; got {n_ch!r}.")
     offset = o["offset"]
+    if isinstance(offset, bool) or not isinstance(offset, (int, np.integer)) or offset < 0:
+        raise InputError(f"offset must be a whole number of bytes >= 0 (the header to skip at the start "
+                         f"of {path.name}); got {offset!r}.")
     size = path.stat().st_size - offset
     frame = dtype.itemsize * n_ch
     if size < 0 or size % frame:
@@ -434,6 +451,39 @@ _DEFAULTS = {"fs": None, "time_column": None, "channels": None, "unit": None,
              "offset": 0, "skip_rows": 0}
 
 
+def _friendly_arguments(func):
+    """Wrong arguments to sb.load are an InputError naming the nearest valid name, never a TypeError."""
+    import difflib
+    import functools
+    import inspect
+
+    signature = inspect.signature(func)
+    names = [p for p in signature.parameters if p != "path"]
+
+    @functools.wraps(func)
+    def wrapper(*args, **kwargs):
+        try:
+            signature.bind(*args, **kwargs)
+        except TypeError:
+            if len(args) > 1:
+                extra = ", ".join(repr(a) for a in args[1:4]) + (", ..." if len(args) > 4 else "")
+                raise InputError(
+                    f"sb.load takes the path as its only positional argument; got {len(args) - 1} more "
+                    f"({extra}). Pass the others by name, e.g. sb.load(path, fs=1000.0)."
+                ) from None
+            unknown = [k for k in kwargs if k not in signature.parameters]
+            if unknown:
+                near = difflib.get_close_matches(unknown[0], names, n=1)
+                hint = f" Did you mean {near[0]}=?" if near else ""
+                raise InputError(f"sb.load has no argument {unknown[0]!r}.{hint} Its arguments are "
+                                 f"{', '.join(names)}.") from None
+            raise InputError("sb.load needs the path of the file to load: sb.load('run.csv').") from None
+        return func(*args, **kwargs)
+
+    return wrapper
+
+
+@_friendly_arguments
 def load(
     path: str | os.PathLike,
     *,
@@ -580,7 +630,11 @@ def load(
     if path.stat().st_size == 0:
         raise InputError(f"{path.name} is empty (0 bytes). Check that the export or copy "
                          "finished.")
-    rec = reader(path, given)
+    try:
+        rec = reader(path, given)
+    except PermissionError as exc:
+        raise InputError(f"{path.name} cannot be read: permission denied ({str(path)!r}). Check the "
+                         "file's permissions, or copy it to a folder you can read.") from exc
     kwargs = {k: _plain(v) for k, v in given.items() if not _is_default(k, v)}
     origin = {"kind": "load", "path": str(path), "kwargs": kwargs}
     return assemble(rec, fs=fs, unit=unit, on_gap=on_gap, max_jitter=max_jitter, origin=origin,

@@ -35,6 +35,9 @@ _MISSING_SET = frozenset(MISSING)
 _UNIT_RE = re.compile(r"^(?P<name>.*?)\s*[\[(](?P<unit>[^\[\]()]*)[\])]\s*$")
 _DECIMAL_COMMA_RE = re.compile(r"^[+-]?\d*,\d+(?:[eE][+-]?\d+)?$")
 _DECIMAL_POINT_RE = re.compile(r"^[+-]?\d*\.\d+(?:[eE][+-]?\d+)?$")
+# digits with signs and separators only (a number with thousands separators, a Unicode minus):
+# such a cell makes its row a data row, named in an error if it does not read, never a header
+_NUMBERLIKE_RE = re.compile(r"^[+\-\u2212\u2013\u2012\ufe63\uff0d]?[\d.,'\u00a0\u202f ]*\d[\d.,'\u00a0\u202f ]*$")
 # a whole line that is one number written with a decimal comma, or an integer
 _ONE_COMMA_NUMBER_RE = re.compile(r"^(?P<int>[+-]?\d+)(?:,(?P<frac>\d+))?(?P<exp>[eE][+-]?\d+)?$")
 
@@ -185,7 +188,7 @@ def sniff(path: Path, *, delimiter: str | None = None, decimal: str | None = Non
 def _is_text_row(cells: list[str], decimal: str) -> bool:
     """A header or units row: no cell is a number, and some cell is text that is not a
     missing-value marker (a row of empty or ``NA`` cells is a row of missing data)."""
-    return (not any(_is_number(c, decimal) for c in cells)
+    return (not any(_is_number(c, decimal) or _NUMBERLIKE_RE.match(c.strip()) for c in cells)
             and any(c.strip() not in _MISSING_SET for c in cells))
 
 
@@ -431,12 +434,36 @@ def _scan(path: Path, dialect: Dialect, text_columns: tuple[int, ...]) -> list[n
                             f"{path.name}: line {number}, column {_column_name(dialect, j)}, "
                             f"holds {cell!r}, which is not a number (decimal mark "
                             f"{dialect.decimal!r}). Repair the cell, or choose the numeric "
-                            "columns with channels=[...]." + _top_hint(number, dialect, cell)
+                            "columns with channels=[...]." + _cell_hint(cell, dialect)
+                            + _top_hint(number, dialect, cell)
                         )
                     x = np.nan
                 values[j].append(x)
     return [np.asarray(v, dtype=object if j in text_columns else np.float64)
             for j, v in enumerate(values)]
+
+
+_MINUS_SIGNS = {"\u2212": "U+2212 MINUS SIGN", "\u2013": "U+2013 EN DASH", "\u2012": "U+2012 FIGURE DASH",
+                "\ufe63": "U+FE63 SMALL HYPHEN-MINUS", "\uff0d": "U+FF0D FULLWIDTH HYPHEN-MINUS"}
+_THOUSANDS_RE = re.compile(r"^[+-]?\d{1,3}(?P<sep>[,.'\u00a0\u202f ])\d{3}(?:(?P=sep)\d{3})*(?:[.,]\d+)?$")
+
+
+def _cell_hint(cell: str, dialect: Dialect) -> str:
+    """What is wrong with a cell that almost reads as a number."""
+    text = cell.strip()
+    for sign, name in _MINUS_SIGNS.items():
+        if sign in text:
+            fixed = text.replace(sign, "-")
+            if _to_float(fixed, dialect.decimal) is not None:
+                return (f" It is written with the character {name} where a number has the ASCII minus '-' "
+                        f"({fixed!r} would read); replace it in the file (spreadsheet exports often do this).")
+    m = _THOUSANDS_RE.match(text)
+    if m:
+        sep = {"\u00a0": "no-break space", "\u202f": "narrow no-break space", " ": "space"}.get(
+            m.group("sep"), repr(m.group("sep")))
+        return (f" It looks like a number with the thousands separator {sep}; specbench reads no thousands "
+                "separators: export the numbers without them (and give decimal= for the decimal mark).")
+    return ""
 
 
 def _top_hint(number: int, dialect: Dialect, cell: str) -> str:

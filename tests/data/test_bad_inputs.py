@@ -528,3 +528,65 @@ class TestSignalArguments:
         x[100] = np.ma.masked
         with pytest.raises(sb.SpecbenchError, match=r"(?i)non-finite|NaN|gap"):
             sb.Welch(segment_length=256)(Signal(x, fs=100.0))
+
+
+class TestClearInsteadOfRaw:
+    """Mistakes that raised raw Python/numpy/h5py exceptions or gave a garbled message."""
+
+    def test_unknown_keyword_suggests_the_nearest(self, tmp_path):
+        path = _csv(tmp_path, "1\n2\n3\n")
+        _raises(path, r"sb.load has no argument 'on_gaps'\. Did you mean on_gap=\? Its arguments are fs, ",
+                on_gaps="fill")
+        _raises(path, r"sb.load has no argument 'sample_rate'\. (Did you mean .*)?Its arguments",
+                sample_rate=10)
+
+    def test_positional_argument_is_named(self, tmp_path):
+        with pytest.raises(InputError, match=r"sb.load takes the path as its only positional argument; got 1 "
+                                             r"more \(1000\)\. Pass the others by name, e.g. sb.load\(path, "
+                                             r"fs=1000.0\)"):
+            load(_csv(tmp_path, "1\n2\n3\n"), 1000)
+
+    def test_missing_path(self):
+        with pytest.raises(InputError, match=r"sb.load needs the path of the file to load"):
+            load()
+
+    @pytest.mark.parametrize("offset", [-2, 1.5, True])
+    def test_bad_raw_offset(self, tmp_path, offset):
+        path = tmp_path / "r.bin"
+        np.zeros(100, "<i2").tofile(path)
+        _raises(path, rf"offset must be a whole number of bytes >= 0 \(the header to skip at the start of "
+                      rf"r.bin\); got {re.escape(repr(offset))}", dtype="<i2", fs=10.0, offset=offset)
+
+    def test_permission_denied(self, tmp_path, monkeypatch):
+        path = _csv(tmp_path, "1\n2\n3\n", name="locked.csv")
+        real_open = builtins.open
+
+        def denied(file, *args, **kwargs):  # root ignores chmod; simulate the denial at open
+            if str(file) == str(path):
+                raise PermissionError(13, "Permission denied", str(file))
+            return real_open(file, *args, **kwargs)
+
+        monkeypatch.setattr(builtins, "open", denied)
+        _raises(path, r"locked.csv cannot be read: permission denied .*Check the file's permissions", fs=10.0)
+
+    @pytest.mark.parametrize("value", ["1 kHz", b"1 kHz"])
+    def test_hdf5_rate_stored_as_text(self, tmp_path, value):
+        h5py = pytest.importorskip("h5py")
+        path = tmp_path / "daq.h5"
+        with h5py.File(path, "w") as f:
+            f.create_dataset("x", data=np.zeros(100)).attrs["fs"] = np.bytes_(value) if isinstance(
+                value, bytes) else value
+        _raises(path, r"the attribute 'fs' of /x in daq.h5 holds '1 kHz', not a number of Hz\. Store the "
+                      r"rate as a number .*or pass fs=")
+
+    def test_unicode_minus_is_pointed_out(self, tmp_path):
+        _raises(_csv(tmp_path, "a\n1.5\n\u22122.5\n3\n"),
+                r"line 3, column 'a', holds '\u22122.5'.*U\+2212 MINUS SIGN where a number has the ASCII minus "
+                r"'-' \('-2.5' would read\)", fs=10.0)
+
+    @pytest.mark.parametrize("text, sep", [("a;b\n1.234,5;2\n2.345,5;3\n3;4\n", "'.'"),
+                                           ("a\n1 234.5\n2\n3\n", "space"),
+                                           ("1\u202f234.5\n2\n3\n", "narrow no-break space")])
+    def test_thousands_separators_are_named(self, tmp_path, text, sep):
+        _raises(_csv(tmp_path, text), rf"It looks like a number with the thousands separator {sep}; "
+                                      r"specbench reads no thousands separators", fs=10.0)
