@@ -26,6 +26,7 @@ whole or not at all, so every view shows the same samples).
 from __future__ import annotations
 
 import logging
+import math
 import time
 import warnings
 from collections import OrderedDict
@@ -45,7 +46,7 @@ class _Cancelled(SpecbenchError):
 #: what a cancelled computation raises
 CANCELLED = getattr(_errors, "Cancelled", _Cancelled)
 
-__all__ = ["DataSelection", "Problem", "Slot", "Session", "Job", "Attempt", "DATA_KEYS"]
+__all__ = ["check_selection", "DataSelection", "Problem", "Slot", "Session", "Job", "Attempt", "DATA_KEYS"]
 
 _log = logging.getLogger("specbench.widgets")
 _log.addHandler(logging.NullHandler())
@@ -71,6 +72,30 @@ class Problem:
 
     message: str
     keys: list[str] = field(default_factory=list)
+
+
+def _number(v: Any) -> bool:
+    return isinstance(v, (int, float)) and not isinstance(v, bool)
+
+
+def check_selection(signal: Any, channel: Any, fs: Any, span: Any) -> tuple[str, str] | None:
+    """(control key, message) for a data-strip value that cannot be used, else None."""
+    names = list(signal.channels)
+    if channel not in names:
+        return "channel", f"The channel {channel!r} is not in the record; choose one of {names}."
+    if fs is not None and not (_number(fs) and math.isfinite(fs) and fs > 0):
+        return "fs", (f"The sample rate must be a positive number of samples per second (Hz), or empty "
+                      f"for the record's own {signal.fs:g} Hz; got {fs!r}.")
+    if span is not None:
+        ok = (isinstance(span, (tuple, list)) and len(span) == 2 and all(_number(v) and math.isfinite(v)
+                                                                        for v in span))
+        if not ok:
+            return "span", (f"The span must be (start, stop) in seconds from the record start, or empty "
+                            f"for the whole record; got {span!r}.")
+        if span[0] >= span[1]:
+            return "span", f"The span must start before it stops; got {tuple(span)!r}."
+    return None
+
 
 
 def internal_message(e: BaseException) -> str:

@@ -45,7 +45,7 @@ from ._export import export_control as _export_control
 from ._merit import MeritPanel
 from ._pins import MAX_PINS, PIN_STYLES, Pin, PinBoard, auto_labels, settings_of
 from ._scheduler import BACKGROUND_SECONDS, COALESCE_SECONDS, Scheduler
-from ._session import DataSelection, Problem, Session, internal_message
+from ._session import DataSelection, Problem, Session, check_selection, internal_message
 from ._status import Status, busy_status, status_of
 from ._style import gapped, style_sheet
 
@@ -94,10 +94,6 @@ def _as_signal(obj: Any):
         f"The Workbench needs a Signal; got {type(obj).__name__}. Wrap an array as "
         "sb.Signal(array, fs=...), or load a file with sb.load(path)."
     )
-
-
-def _number(v: Any) -> bool:
-    return isinstance(v, (int, float)) and not isinstance(v, bool)
 
 
 class Workbench(W.VBox):
@@ -383,7 +379,7 @@ class Workbench(W.VBox):
         span = self._strip.span.value
         fs = self._strip.rate.value
         channel = self._strip.channel.value
-        problem = self._check_selection(channel, fs, span)
+        problem = check_selection(self._signal, channel, fs, span)
         if problem is not None:
             s.errors["data"] = Problem(problem[1], [problem[0]])
             self._show_status()
@@ -403,24 +399,6 @@ class Workbench(W.VBox):
         s.propose_selection(DataSelection(channel, None if fs is None else float(fs),
                                           None if span is None else (float(span[0]), float(span[1]))))
         self._request()
-
-    def _check_selection(self, channel: Any, fs: Any, span: Any) -> tuple[str, str] | None:
-        """(control key, message) for a data-strip value that cannot be used, else None."""
-        names = list(self._signal.channels)
-        if channel not in names:
-            return "channel", f"The channel {channel!r} is not in the record; choose one of {names}."
-        if fs is not None and not (_number(fs) and math.isfinite(fs) and fs > 0):
-            return "fs", (f"The sample rate must be a positive number of samples per second (Hz), or empty "
-                          f"for the record's own {self._signal.fs:g} Hz; got {fs!r}.")
-        if span is not None:
-            ok = (isinstance(span, (tuple, list)) and len(span) == 2 and all(_number(v) and math.isfinite(v)
-                                                                            for v in span))
-            if not ok:
-                return "span", (f"The span must be (start, stop) in seconds from the record start, or empty "
-                                f"for the whole record; got {span!r}.")
-            if span[0] >= span[1]:
-                return "span", f"The span must start before it stops; got {tuple(span)!r}."
-        return None
 
     def _brushed(self, span) -> None:
         self._strip.span.value = span
