@@ -167,10 +167,10 @@ QUICKSTART = [
     f, true = spec.freq[inner], sig.truth.psd(spec.freq)[0, inner]
     xs, ys = bq.LogScale(), bq.LogScale()
     band = bq.Lines(x=f, y=[spec.upper[0, inner], spec.lower[0, inner]], fill="between",
-                    colors=["#3a78c2"], fill_colors=["#3a78c2"], fill_opacities=[0.35],
+                    colors=["#1b7396"], fill_colors=["#1b7396"], fill_opacities=[0.3],
                     opacities=[0, 0], scales={"x": xs, "y": ys})
-    truth = bq.Lines(x=f, y=true, colors=["#c0392b"], stroke_width=1.2, scales={"x": xs, "y": ys})
-    bq.Figure(marks=[band, truth], title=f"{spec.estimator!r}: 95 % band (blue), true PSD (red)",
+    truth = bq.Lines(x=f, y=true, colors=["#de7410"], stroke_width=1.2, scales={"x": xs, "y": ys})
+    bq.Figure(marks=[band, truth], title=f"{spec.estimator!r}: 95 % band (blue), true PSD (amber)",
               axes=[bq.Axis(scale=xs, label="Frequency (Hz)", tick_format="~g"),
                     bq.Axis(scale=ys, orientation="vertical", label=spec.unit, label_offset="50px")],
               fig_margin={"top": 40, "bottom": 50, "left": 80, "right": 20})

@@ -150,8 +150,13 @@ def merit(lab, key: str) -> str:
     return lab.page.locator(f".sb-merit-{key} .sb-merit-value").text_content().strip()
 
 
-def status(lab) -> str:
-    return lab.page.locator(".sb-status").text_content().strip()
+def status(lab, expect: str | None = None) -> str:
+    """The status line's text, once it holds ``expect`` (waited for, as the status updates
+    after the plot; a read straight after an action may see the previous status)."""
+    line = lab.page.locator(".sb-status").first
+    if expect is not None:
+        lab.page.locator(".sb-status", has_text=expect).first.wait_for()
+    return line.text_content().strip()
 
 
 def segment_entry(lab):
@@ -259,7 +264,7 @@ def test_quickstart_runs_and_both_views_draw_with_their_bands(lab):
     assert lab.page.locator(".sb-pin-row").count() == 2
     # the estimate on screen at the end is Welch(segment_length=4096)
     assert merit(lab, "resolution") == resolution_hz(4096)
-    assert "Welch(segment_length=4096)" in status(lab)
+    assert "Welch(segment_length=4096)" in status(lab, "Welch(segment_length=4096)")
     lab.screenshot("1-views", show=".sb-workbench .sb-psd")
     lab.screenshot("2-merits-and-pins", show=".sb-workbench .sb-pins")
 
@@ -320,7 +325,7 @@ def test_segment_length_change_redraws_the_psd_and_the_figures_of_merit(lab):
     assert_visible(after.band, "area", "psd band after the change")
     assert merit(lab, "segments") == segments(2048)
     assert segment_entry(lab).input_value() == "2048"
-    assert "Welch(segment_length=2048)" in status(lab)
+    assert "Welch(segment_length=2048)" in status(lab, "Welch(segment_length=2048)")
     lab.screenshot("2-after", show=".sb-psd")
     lab.screenshot("3-merits", show=".sb-merit")
 
@@ -400,7 +405,7 @@ def test_an_invalid_setting_shows_its_message_and_the_last_plot_stays(lab):
     with lab.timed("invalid entry"):
         type_segment_length(lab, 200_000)  # longer than the 102,400 samples of the record
         lab.wait_for(".sb-status.sb-status-error")
-    message = status(lab)
+    message = status(lab, "Not applied:")
     assert message.startswith("Not applied:"), message
     assert "200000" in message.replace(",", "") and "102400" in message.replace(",", ""), message
     assert lab.page.locator(".sb-control-segment-length.sb-invalid").count() == 1
@@ -418,7 +423,7 @@ def test_an_invalid_setting_shows_its_message_and_the_last_plot_stays(lab):
         lab.page.locator(".sb-merit-resolution", has_text=resolution_hz(4096)).wait_for()
     assert lab.page.locator(".sb-status.sb-status-error").count() == 0
     assert lab.page.locator(".sb-control-segment-length.sb-invalid").count() == 0
-    assert "Welch(segment_length=4096)" in status(lab)
+    assert "Welch(segment_length=4096)" in status(lab, "Welch(segment_length=4096)")
     lab.screenshot("3-fixed", show=".sb-psd")
 
 
