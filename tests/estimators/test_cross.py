@@ -332,7 +332,7 @@ def test_result_table_and_repr():
     df = r.to_dataframe()
     assert list(df.columns[:3]) == ["csd_real", "csd_imag", "coherence"] and len(df) == r.freq.size
     assert "K = 77 segments" in repr(r)
-    # threshold values of Carter (1987) at alpha = 0.05 (../shared/REFERENCES.md): n_d = 8 -> 0.3482
+    # threshold values of Carter (1987) at alpha = 0.05 (Carter 1987, Proc. IEEE 75(2); memory): n_d = 8 -> 0.3482
     assert 1 - 0.05 ** (1 / 7) == pytest.approx(0.3482, abs=1e-4)
     nd = r.independent_segments
     assert r.coherence_threshold[5] == pytest.approx(1 - 0.05 ** (1 / (nd - 1)))

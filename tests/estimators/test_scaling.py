@@ -9,9 +9,9 @@ import specbench as sb
 
 FS = 2000.0
 N = 2**17
-RNG = np.random.default_rng(7)
 SIGMA = 0.3
-WHITE = RNG.standard_normal(N) * SIGMA
+WHITE = np.random.default_rng(7).standard_normal(N) * SIGMA  # one fixed record, read-only
+WHITE.setflags(write=False)
 
 ESTIMATORS = [
     sb.Welch(segment_length=1024),

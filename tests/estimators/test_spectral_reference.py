@@ -39,8 +39,8 @@ class TestScipyTestVectors:
         np.testing.assert_allclose(np.fft.ifftshift(spec.value), [0] + [1 / 16] * 15, atol=1e-15)
 
 
-RNG = np.random.default_rng(20261201)
-X = RNG.standard_normal(20_011) * 3.0 + 1.5 + np.linspace(0, 2, 20_011)
+X = np.random.default_rng(20261201).standard_normal(20_011) * 3.0 + 1.5 + np.linspace(0, 2, 20_011)
+X.setflags(write=False)  # one fixed record shared read-only by the tests
 
 WELCH_GRID = list(
     itertools.product(
