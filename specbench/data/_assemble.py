@@ -74,6 +74,9 @@ def select_columns(available: Sequence[str], channels: Sequence[str | int] | str
                              f"an index such as 0 or a name from {list(available)}.")
     if len(set(picked)) != len(picked):
         raise InputError(f"channels={list(channels)} names a channel twice. Name each once.")
+    if not picked:
+        raise InputError(f"channels=[] selects no channel of {label}. Name at least one of "
+                         f"{list(available)}, or leave channels out to load them all.")
     return picked
 
 
