@@ -7,6 +7,7 @@ reader returns a :class:`~specbench.data._assemble.Record`, and
 
 from __future__ import annotations
 
+import math
 import os
 import struct
 import warnings
@@ -142,6 +143,8 @@ def _take_rows(data: np.ndarray, pick: list[int]) -> np.ndarray:
     if len(pick) == 1 or (len(steps) == 1 and min(steps) > 0):
         step = steps.pop() if steps else 1
         return data[pick[0]:pick[-1] + 1:step]
+    if hasattr(data, "dask"):  # a lazy dask array stays lazy
+        return data[pick]
     return np.ascontiguousarray(data[pick])
 
 
@@ -272,7 +275,14 @@ def _read_hdf5(path: Path, o: dict) -> Record:
                              f"{datasets}. Pass key= with one of those paths.")
         dset = f[key]
         label = f"{path.name}:{dset.name}"
-        arr, mapped = _hdf5_array(path, dset)
+        if o.get("lazy"):
+            import dask.array as da
+
+            reader = _H5Reader(path, dset.name, dset.shape, dset.dtype)
+            arr, mapped = da.from_array(reader, chunks=_lazy_chunks(dset.shape, dset.chunks, o),
+                                        name=f"specbench-hdf5-{path.name}-{dset.name}-{path.stat().st_mtime_ns}"), True
+        else:
+            arr, mapped = _hdf5_array(path, dset)
         rec = _array_record(arr, label, o, memmap=mapped)
         rec.fs, rec.fs_note = _hdf5_rate(dset, o["fs_attribute"], label)
         unit = _first_attr(dset, UNIT_ATTRIBUTES)
@@ -292,9 +302,92 @@ def _read_hdf5(path: Path, o: dict) -> Record:
             rec.time, rec.start, rec.t0 = time_axis(
                 f[tkey][()], label=f"time dataset {tkey!r} of {path.name}", row=_index_row,
                 unit=str(_first_attr(f[tkey], UNIT_ATTRIBUTES) or ""))
-        if mapped:
+        if o.get("lazy"):
+            rec.notes[:] = [n for n in rec.notes if n != "memory-mapped"] + ["read lazily as a dask array"]
+        elif mapped:
             rec.notes.append("memory-mapped")
     return rec
+
+
+def _read_zarr(path: Path, o: dict) -> Record:
+    """A zarr store (array, or group with ``key=``), always as a lazy dask array."""
+    _optional("zarr", "dask", "zarr stores")
+    _optional("dask", "dask", "zarr stores")
+    import dask.array as da
+    import zarr
+
+    try:
+        node = zarr.open(str(path), mode="r")
+    except Exception as exc:  # zarr raises several types for a folder that is not a store
+        raise InputError(f"{path.name} could not be opened as a zarr store ({type(exc).__name__}: {exc}). "
+                         "Check that the path is the store's folder.") from None
+    key = o["key"]
+    if not hasattr(node, "shape"):  # a group
+        arrays = sorted(name for name, _ in node.arrays())
+        if key is None:
+            if len(arrays) != 1:
+                raise InputError(f"{path.name} is a zarr group with the arrays {arrays}; choose one with key=.")
+            key = arrays[0]
+        if key not in arrays:
+            raise InputError(f"{path.name} has no array {key!r}; its arrays are {arrays}. Pass key= with one.")
+        node = node[key]
+    label = f"{path.name}" + (f":{key}" if key else "")
+    chunks = _lazy_chunks(node.shape, getattr(node, "chunks", None), o)
+    arr = da.from_zarr(str(path), component=key, chunks=chunks)
+    rec = _array_record(arr, label, o, memmap=True)
+    rec.notes[:] = ["read lazily as a dask array"]
+    attrs = dict(node.attrs)
+    want = [o["fs_attribute"]] if o["fs_attribute"] else list(RATE_ATTRIBUTES) + list(INTERVAL_ATTRIBUTES)
+    for name in want:
+        if name in attrs:
+            value = float(attrs[name])
+            rec.fs = 1.0 / value if name in INTERVAL_ATTRIBUTES else value
+            rec.fs_note = f"the attribute {name!r} of {label}"
+            break
+    unit = next((attrs[a] for a in UNIT_ATTRIBUTES if a in attrs), None)
+    if isinstance(unit, str):
+        rec.units = [unit] * rec.data.shape[0]
+    rec.rate_hint = "fs= (or store an 'fs' attribute on the array)"
+    return rec
+
+
+class _H5Reader:
+    """A picklable stand-in for an HDF5 dataset: each read opens the file (on whichever
+    process runs the dask task: a worker of a cluster needs the same file system)."""
+
+    def __init__(self, path: Path, key: str, shape: tuple, dtype: np.dtype) -> None:
+        self.path, self.key, self.shape, self.dtype = str(path), key, tuple(shape), np.dtype(dtype)
+        self.ndim = len(self.shape)
+
+    def __getitem__(self, index):
+        import h5py
+
+        with h5py.File(self.path, "r") as f:
+            return f[self.key][index]
+
+
+def _lazy_chunks(shape: tuple, stored: tuple | None, o: dict) -> tuple:
+    """dask chunks: whole channels, and along the samples about 2**21 samples, a multiple
+    of the stored chunk length (no chunk read twice) and, when ``lazy`` is an estimator,
+    of its segment step (so the engine's tasks line up with the chunks)."""
+    axis = -1 if len(shape) == 1 else (0 if o["axis"] == 0 else 1)
+    n = shape[axis]
+    unit = 1
+    if stored:
+        unit = int(stored[axis])
+    est = o.get("lazy")
+    step = None
+    if est is not None and not isinstance(est, bool) and hasattr(est, "segment_length"):
+        seg = getattr(est, "segment_length", None) or 0
+        nov = getattr(est, "noverlap", 0) or 0
+        step = max(1, int(seg) - int(nov)) if seg else None
+    if step:
+        unit = unit * step // math.gcd(unit, step)
+    length = max(unit, (1 << 21) // unit * unit)
+    length = min(length, n)
+    chunks = list(shape)
+    chunks[axis] = length
+    return tuple(chunks)
 
 
 def _hdf5_datasets(f) -> list[str]:
@@ -437,18 +530,19 @@ FORMATS: dict[str, tuple[_Reader, frozenset[str]]] = {
     "npy": (_read_npy, frozenset({"axis"})),
     "npz": (_read_npz, frozenset({"key", "axis", "time_column"})),
     "wav": (_read_wav, frozenset()),
-    "hdf5": (_read_hdf5, frozenset({"key", "axis", "time_column", "fs_attribute"})),
+    "hdf5": (_read_hdf5, frozenset({"key", "axis", "time_column", "fs_attribute", "lazy"})),
+    "zarr": (_read_zarr, frozenset({"key", "axis", "fs_attribute", "lazy"})),
     "raw": (_read_raw, frozenset({"dtype", "n_channels", "interleaved", "offset"})),
 }
 EXTENSIONS = {".csv": "csv", ".tsv": "csv", ".txt": "csv", ".npy": "npy", ".npz": "npz",
               ".wav": "wav", ".h5": "hdf5", ".hdf5": "hdf5", ".hdf": "hdf5", ".bin": "raw",
-              ".raw": "raw"}
+              ".raw": "raw", ".zarr": "zarr"}
 _COMMON = frozenset({"fs", "channels", "unit", "on_gap", "max_jitter"})
 _DEFAULTS = {"fs": None, "time_column": None, "channels": None, "unit": None,
              "on_gap": "error", "max_jitter": DEFAULT_MAX_JITTER, "format": None, "key": None,
              "axis": -1, "delimiter": None, "decimal": None, "comment": None,
              "fs_attribute": None, "dtype": None, "n_channels": 1, "interleaved": True,
-             "offset": 0, "skip_rows": 0}
+             "offset": 0, "skip_rows": 0, "lazy": False}
 
 
 def _friendly_arguments(func):
@@ -505,6 +599,7 @@ def load(
     n_channels: int = 1,
     interleaved: bool = True,
     offset: int = 0,
+    lazy: Any = False,
 ) -> Signal:
     """Load a recording from a file into a :class:`Signal`.
 
@@ -579,6 +674,13 @@ def load(
         channel after another.
     offset : int
         Raw binary: bytes to skip at the start (a header).
+    lazy : bool or estimator
+        HDF5: open the dataset as a dask array read chunk by chunk when estimated
+        (chunked and compressed datasets included), instead of reading it (or memory
+        mapping it).  A zarr store (``.zarr`` folder, ``format="zarr"``) is always opened
+        this way.  Chunks hold whole channels and about 2**21 samples, a multiple of the
+        stored chunk length; pass the estimator (``lazy=sb.Welch(segment_length=4096)``)
+        to make them a multiple of its segment step as well.  Needs the ``dask`` extra.
 
     Returns
     -------
@@ -607,10 +709,12 @@ def load(
     if isinstance(channels, np.ndarray):
         given["channels"] = channels = channels.tolist()
     path = Path(path)
+    zarr_store = format == "zarr" or (format is None and path.suffix.lower() == ".zarr")
     if not path.exists():
-        raise InputError(f"No file {str(path)!r} (working directory {os.getcwd()!r}). Check "
+        what = "zarr store" if zarr_store else "file"
+        raise InputError(f"No {what} {str(path)!r} (working directory {os.getcwd()!r}). Check "
                          "the path.")
-    if path.is_dir():
+    if path.is_dir() and not zarr_store:
         raise InputError(f"{str(path)!r} is a folder; pass the path of a file in it.")
     fmt = format if format is not None else EXTENSIONS.get(path.suffix.lower())
     if fmt not in FORMATS:
@@ -627,7 +731,7 @@ def load(
         raise InputError(f"{', '.join(stray)} do{'es' if len(stray) == 1 else ''} not apply "
                          f"to {fmt} files ({path.name}). Options for {fmt}: "
                          f"{sorted(options | _COMMON)}.")
-    if path.stat().st_size == 0:
+    if not zarr_store and path.stat().st_size == 0:
         raise InputError(f"{path.name} is empty (0 bytes). Check that the export or copy "
                          "finished.")
     try:
@@ -652,6 +756,8 @@ def _plain(value: Any) -> Any:
     """Keyword values as plain Python (for the code that repeats the load)."""
     if isinstance(value, np.dtype):
         return value.str
+    if hasattr(value, "to_dict") and hasattr(value, "replace"):  # lazy=<estimator>: the chunking hint
+        return True
     if isinstance(value, type) and issubclass(value, np.generic):
         return np.dtype(value).str
     if isinstance(value, (tuple, list)):

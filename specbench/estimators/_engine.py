@@ -367,7 +367,14 @@ def map_spans(kernel: Callable, x: Any, spans: Sequence[tuple[int, int]], per_sp
             def one(i):
                 (a, b), (c, d) = spans[i], spans_y[i]
                 return kernel(_take(x, a, b), _take(y, c, d), *per[i], *args)
-        yield from ordered_map(one, range(len(spans)), report_blocks)
+        if report_blocks:
+            yield from ordered_map(one, range(len(spans)))
+        else:  # short auxiliary passes: in the calling thread (hand-offs would cost more)
+            tracker = _TRACKER.get()
+            for i in range(len(spans)):
+                if tracker is not None:
+                    tracker.check()
+                yield one(i)
         return
     import dask
 

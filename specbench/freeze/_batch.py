@@ -77,6 +77,10 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
     parser.add_argument("--overwrite", action="store_true",
                         help="replace result files that already exist (default: refuse; never an input file)")
     parser.add_argument("--quiet", "-q", action="store_true", help="no progress messages on stderr")
+    parser.add_argument("--scheduler", metavar="ADDRESS",
+                        help="run the estimates on this dask.distributed scheduler (tcp://host:8786): the "
+                             "blocks are reduced on its workers (HDF5 and zarr inputs are read there: the "
+                             "workers need the same paths); same numbers, bit for bit")
 
 
 def _rate(text: str) -> float:
@@ -367,6 +371,8 @@ def estimate_file(args: argparse.Namespace, progress: _Progress) -> dict:
         ph.note = f"{root.n_channels} x {root.n_samples:,} samples at {root.fs:.9g} Hz ({kind})"
     fp_line = _fingerprint_report(settings, sig)
     progress.say(fp_line)
+    if getattr(args, "scheduler", None):
+        sig = _on_cluster(sig)
     for name, why in skipped.items():
         progress.say(f"skipped the analysis {name!r}: {why}.")
     total = sig.n_channels * sig.n_samples
@@ -697,6 +703,40 @@ def _restore_sigterm(previous: Any) -> None:
 
     if previous is not None:
         signal.signal(signal.SIGTERM, previous)
+#: seconds to wait for a dask scheduler to answer before giving up
+SCHEDULER_TIMEOUT = 5
+
+
+def _connect(address: str):
+    """A dask.distributed Client on ``address``, or a BatchError within a few seconds."""
+    try:
+        from distributed import Client
+    except ImportError:
+        raise BatchError("--scheduler needs dask.distributed. "
+                         "Install it with: pip install 'specbench[dask]'.") from None
+    try:
+        return Client(address, timeout=SCHEDULER_TIMEOUT, set_as_default=True)
+    except (OSError, TimeoutError, ValueError, TypeError) as e:
+        raise BatchError(
+            f"--scheduler {address!r}: no dask scheduler answered within {SCHEDULER_TIMEOUT} s "
+            f"({type(e).__name__}: {e}). Check the address and port (e.g. tcp://10.0.0.5:8786), or start a "
+            "scheduler with: dask scheduler"
+        ) from None
+
+
+def _on_cluster(sig: Any) -> Any:
+    """The selection's samples as a dask array, so that the engines send the blocks to the
+    workers (a lazily opened HDF5/zarr input already is one)."""
+    from ..data import Signal
+    from ..estimators._engine import TASK_SAMPLES, is_lazy
+
+    if is_lazy(sig.data):
+        return sig
+    import dask.array as da
+
+    lazy = da.from_array(np.asarray(sig.data), chunks=(sig.n_channels, TASK_SAMPLES))
+    return Signal(lazy, sig.fs, channels=sig.channels, unit=sig.unit, t0=sig.t0, source=sig.source,
+                  origin=sig._origin, selection=sig._selection, truth=sig._truth, start=sig._start)
 
 
 def run(args: argparse.Namespace) -> int:
@@ -720,7 +760,11 @@ def run(args: argparse.Namespace) -> int:
     """
     progress = _Progress(sys.stderr, args.quiet)
     previous = _catch_sigterm()
+    client = None
     try:
+        if getattr(args, "scheduler", None):
+            client = _connect(args.scheduler)
+            progress.say(f"dask scheduler {args.scheduler}: {len(client.scheduler_info().get('workers', {}))} workers")
         summary = estimate_file(args, progress)
     except _Terminated as e:
         print(f"specbench estimate: stopped by signal {e.args[0]}; no result was written and the "
@@ -738,6 +782,8 @@ def run(args: argparse.Namespace) -> int:
         return 2
     finally:
         _restore_sigterm(previous)
+        if client is not None:
+            client.close()
     progress.say("wrote " + ", ".join(f"{p} ({n})" for n, p in summary["paths"].items()))
     return 0
 

@@ -55,7 +55,12 @@ def fft_floor(x, nperseg, noverlap):
 def main():
     ap = argparse.ArgumentParser()
     ap.add_argument("--quick", action="store_true", help="1e6 samples only, fewer repeats")
+    ap.add_argument("--focus", type=int, metavar="RUNS", default=0,
+                    help="only the target case (1e7 samples, segment 4096, 75 %% overlap), RUNS times, "
+                         "with the spread of the ratios over the runs (the machine is shared: timings vary)")
     args = ap.parse_args()
+    if args.focus:
+        return focus(args.focus)
     sizes = [10**6] if args.quick else [10**6, 10**7]
     repeats = 3 if args.quick else 5
     rng = np.random.default_rng(0)
@@ -88,6 +93,29 @@ def main():
                     print(f"{n:>9.0e} {np.dtype(dtype).name:>7} {nperseg:>7} {overlap:>4} | {t_sp * 1e3:>9.1f} "
                           f"{t_sb * 1e3:>8.1f} {t_fl * 1e3:>8.1f} | {t_sp / t_sb:>6.1f}x {t_sb / t_fl:>7.2f}x | "
                           f"{m_sp / 2**20:>8.1f} {m_sb / 2**20:>6.1f} {m_sb / m_sp:>9.3f}   (max rel. diff {err:.1e})")
+
+
+def focus(runs: int) -> None:
+    """The target case, several times; each run measures the three contenders side by side."""
+    x64 = np.random.default_rng(0).standard_normal(10**7)
+    for dtype in (np.float64, np.float32):
+        x = x64.astype(dtype)
+        est = sb.Welch(segment_length=4096, overlap=0.75)
+        nov = est.noverlap
+        speedups, floors = [], []
+        for run in range(runs):
+            t_sp = timed(lambda x=x, nov=nov: scipy.signal.welch(x, nperseg=4096, noverlap=nov), 5)
+            t_sb = timed(lambda x=x, est=est: est(x, fs=1.0), 5)
+            floor = fft_floor(x, 4096, nov)
+            t_fl = timed(floor, 5)
+            del floor
+            speedups.append(t_sp / t_sb)
+            floors.append(t_sb / t_fl)
+            print(f"{np.dtype(dtype).name} run {run + 1}: scipy {t_sp * 1e3:7.1f} ms, sb {t_sb * 1e3:6.1f} ms, "
+                  f"floor {t_fl * 1e3:6.1f} ms | {t_sp / t_sb:5.2f}x scipy, {t_sb / t_fl:4.2f}x floor", flush=True)
+        print(f"{np.dtype(dtype).name}: speedup vs scipy median {statistics.median(speedups):.2f}x "
+              f"[{min(speedups):.2f}-{max(speedups):.2f}], vs floor median {statistics.median(floors):.2f}x "
+              f"[{min(floors):.2f}-{max(floors):.2f}] over {runs} runs")
 
 
 if __name__ == "__main__":
