@@ -612,17 +612,17 @@ def _multitaper_cost(est: Any, n: int, c: int, itemsize: int) -> dict:
     if (seg, float(est.bandwidth), k) not in _TAPERS_BUILT:
         if seg > FAST_DPSS_MIN:  # short seed tapers, then one tridiagonal solve per taper
             fixed += 0.12 * k / 7
-            passes += 40.0 * seg * k
+            passes += 140.0 * seg * k
         else:  # scipy.signal.windows.dpss: about 1.6 us per sample for 7 tapers here
             fixed += 1.6e-6 * seg * k / 7
     if nseg == 1:
         fft = [(c * k, nfft, True)]  # one transform per taper, two tapers at a time
-        passes += 4.0 * c * k * n
+        passes += 14.0 * c * k * n
     else:
         m = _segment_model(n, c, seg, seg, nfft, itemsize, passes=k)
         fft, passes = m["fft"], passes + m["passes"]
     if est.adaptive and k > 1:
-        passes += 25.0 * c * k * nfreq
+        passes += 90.0 * c * k * nfreq
     return dict(fft=fft, passes=passes, fixed=fixed)
 
 
