@@ -22,7 +22,7 @@ import numpy as np
 import scipy.fft
 from numpy.lib.stride_tricks import sliding_window_view
 
-from ._engine import _scratch, block_segments, map_spans
+from ._engine import _scratch, block_segments, map_spans, segment_spans
 
 __all__ = ["cross_segment_products", "lag_products_matrix", "work_dtype"]
 
@@ -107,16 +107,7 @@ def cross_segment_products(
     nfreq = nfft // 2 + 1
     per_block = block_segments(nperseg)
     iu = np.triu_indices(c)
-    spans, calls = [], []
-    for s0 in range(0, nseg, per_block):
-        s1 = min(s0 + per_block, nseg)
-        if index is None:
-            first, last, local = s0, s1 - 1, None
-        else:
-            first, last = int(index[s0]), int(index[s1 - 1])
-            local = index[s0:s1] - first
-        spans.append((first * step, last * step + nperseg))
-        calls.append((s1 - s0, local))
+    spans, calls = segment_spans(nseg, per_block, index, step, nperseg)
     total = np.zeros((iu[0].size, nfreq), dtype=np.complex128)
     # blocks read through the engines' block interface: NumPy views on the engine threads,
     # or dask tasks on the active scheduler, summed in block order either way

@@ -453,6 +453,26 @@ def chunk_spans(n: int, chunk: int) -> list[tuple[int, int]]:
     return [(t0, min(n, t0 + chunk)) for t0 in range(0, n, chunk)]
 
 
+def segment_spans(nseg: int, per_block: int, index: np.ndarray | None, step: int,
+                  nperseg: int) -> tuple[list[tuple[int, int]], list[tuple[int, np.ndarray | None]]]:
+    """Blocks of ``per_block`` segments: their sample spans and ``(count, local starts)``.
+
+    ``index``: the segment numbers in use (None: all ``nseg``); ``local`` gives each
+    block's segment starts within its span in units of ``step`` (None: consecutive).
+    """
+    spans, calls = [], []
+    for s0 in range(0, nseg, per_block):
+        s1 = min(s0 + per_block, nseg)
+        if index is None:
+            first, last, local = s0, s1 - 1, None
+        else:
+            first, last = int(index[s0]), int(index[s1 - 1])
+            local = index[s0:s1] - first
+        spans.append((first * step, last * step + nperseg))
+        calls.append((s1 - s0, local))
+    return spans, calls
+
+
 def _segment_block(span: np.ndarray, count: int, local: np.ndarray | None, w: np.ndarray, step: int,
                    nfft: int, detrend: str, twosided: bool, keep_each: bool, per_block: int) -> np.ndarray:
     """The kernel of :func:`segment_power`: ``count`` segments of one span.
@@ -534,16 +554,7 @@ def segment_power(
     w = window.astype(np.float32 if single else np.float64, copy=False)
     nfreq = nfft if twosided else nfft // 2 + 1
     per_block = min(block_segments(max(nperseg, nfft)), max(1, nseg))  # zero padding: buffers scale with nfft
-    spans, calls = [], []
-    for s0 in range(0, nseg, per_block):
-        s1 = min(s0 + per_block, nseg)
-        if index is None:
-            first, last, local = s0, s1 - 1, None
-        else:
-            first, last = int(index[s0]), int(index[s1 - 1])
-            local = index[s0:s1] - first
-        spans.append((first * step, last * step + nperseg))
-        calls.append((s1 - s0, local))
+    spans, calls = segment_spans(nseg, per_block, index, step, nperseg)
     out = np.empty((c, nseg, nfreq), dtype=np.float64) if keep_each else None
     total = np.zeros((c, nfreq), dtype=np.float64)
     parts = map_spans(_segment_block, x, spans, calls,
