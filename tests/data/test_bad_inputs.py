@@ -331,7 +331,7 @@ class TestPaths:
     def test_unknown_extension(self, tmp_path):
         _raises(_csv(tmp_path, "1\n2\n", "x.xyz"),
                 r"x.xyz: the extension '.xyz' is not one specbench reads .*Pass format= with "
-                r"one of \['csv', 'hdf5', 'npy', 'npz', 'raw', 'wav'\]")
+                r"one of \['csv', 'hdf5', 'npy', 'npz', 'raw', 'wav', 'zarr'\]")
 
     def test_folder(self, tmp_path):
         _raises(tmp_path, r"is a folder; pass the path of a file in it")
