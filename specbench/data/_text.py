@@ -358,7 +358,8 @@ def _read_pandas(path: Path, dialect: Dialect, text_columns: tuple[int, ...]) ->
         skiprows=dialect.skip, names=list(range(dialect.n_fields)),
         na_values=list(MISSING), keep_default_na=False,
         # one column: an empty line is an empty cell (a missing sample), never dropped
-        skip_blank_lines=dialect.n_fields > 1,
+        # a tab-delimited row of empty cells is a whitespace line: read every line, sort them out below
+        skip_blank_lines=dialect.n_fields > 1 and dialect.delimiter != "\t",
         encoding=dialect.encoding, engine="c",
         dtype={j: str for j in text_columns} or None,
     )
@@ -373,7 +374,8 @@ def _read_pandas(path: Path, dialect: Dialect, text_columns: tuple[int, ...]) ->
         raise InputError(f"{path.name} could not be read as a table ({dialect.describe()}): "
                          f"{exc}. Give delimiter=, decimal= or comment= if the detection "
                          "is wrong.") from exc
-    if dialect.n_fields == 1 and frame.shape[0] and bool(frame[0].isna().any()):
+    if ((dialect.n_fields == 1 or dialect.delimiter == "\t") and frame.shape[0]
+            and bool(frame.isna().to_numpy().any())):
         return _scan(path, dialect, text_columns)  # tells empty lines from comment lines
     columns = []
     for j in range(dialect.n_fields):
@@ -408,9 +410,10 @@ def _scan(path: Path, dialect: Dialect, text_columns: tuple[int, ...]) -> list[n
             if not text.strip() and n == 1:
                 blank_run += 1
                 continue
+            cells_only = _delimited_empty_row(text, dialect)
             if dialect.comment and dialect.comment in text:
                 text = text[:text.index(dialect.comment)]
-            if not text.strip():
+            if not text.strip() and not cells_only:
                 continue
             if blank_run:  # empty lines between samples: missing samples, kept in place
                 values[0].extend([np.nan] * blank_run)
@@ -475,6 +478,11 @@ def _top_hint(number: int, dialect: Dialect, cell: str) -> str:
             "number in it.")
 
 
+def _delimited_empty_row(text: str, dialect: Dialect) -> bool:
+    """A tab-delimited line of only empty cells (``"\\t\\t"``): a row of missing values, not a blank line."""
+    return dialect.delimiter == "\t" and dialect.n_fields > 1 and "\t" in text and not text.strip(" \t")
+
+
 def _column_name(dialect: Dialect, j: int) -> str:
     if dialect.names:
         return repr(dialect.names[j])
@@ -498,9 +506,10 @@ def _data_line_numbers(path: Path, dialect: Dialect) -> np.ndarray:
             if dialect.n_fields == 1 and not text.strip():
                 blanks.append(number)  # one column: an empty line inside the data is a sample
                 continue
+            row_of_empties = _delimited_empty_row(text.rstrip("\r\n"), dialect)
             if dialect.comment and dialect.comment in text:
                 text = text[:text.index(dialect.comment)]
-            if text.strip():
+            if text.strip() or row_of_empties:
                 numbers.extend(blanks)
                 blanks = []
                 numbers.append(number)
