@@ -117,7 +117,8 @@ def sniff(path: Path, *, delimiter: str | None = None, decimal: str | None = Non
         starts = {ln.lstrip()[:1] for ln in lines if ln.strip()}
         comment = next((c for c in _COMMENTS if c in starts), None)
     meaningful = [(i, ln) for i, ln in enumerate(lines[:skip_rows + _SNIFF_LINES * 4])
-                  if i >= skip_rows and ln.strip() and not (comment and ln.lstrip().startswith(comment))]
+                  if i >= skip_rows and (ln.strip() or "\t" in ln)  # "\t\t": a row of empty cells
+                  and not (comment and ln.lstrip().startswith(comment))]
     if not meaningful:
         what = "is empty" if not text.strip() else "holds only comment lines"
         raise InputError(

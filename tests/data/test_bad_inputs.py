@@ -604,3 +604,5 @@ def test_tab_row_of_empty_cells_is_kept(tmp_path):
     _raises(path, r"bad.csv has 2 non-finite values.*first at line 2 of bad.csv", fs=10.0)
     sig = load(path, fs=10.0, on_gap="fill")
     np.testing.assert_array_equal(sig.data, [[1, np.nan, 3, 5], [2, np.nan, 4, 6]])  # the blank line is no row
+    first = load(_csv(tmp_path, "\t\n1\t2\n3\t4\n", name="first.csv"), fs=10.0, on_gap="fill")
+    np.testing.assert_array_equal(first.data, [[np.nan, 1, 3], [np.nan, 2, 4]])  # also as the first row
