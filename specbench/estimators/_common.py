@@ -213,8 +213,12 @@ def nonfinite_error(x: np.ndarray, owner: str, limit: int | None = None) -> Inpu
         return finite_failure(x, owner)
     where = ", ".join(f"sample {i}" + (f" of channel {c}" if x.shape[0] > 1 else "") for c, i in bad_pos)
     fix = "Choose a span without them, or fill or interpolate them yourself"
-    fix += (", or use sb.Welch(gaps='skip') to leave out the segments that touch them." if owner == "Welch"
-            else "; sb.Welch(gaps='skip') can estimate the PSD around them.")
+    if owner in ("Welch", "CrossSpectrum"):
+        fix += f", or use sb.{owner}(gaps='skip') to leave out the segments that touch them."
+    elif owner in ("Autocorrelation", "CrossCorrelation", "Covariance"):
+        fix += f", or use sb.{owner}(gaps='pairs') to use only the pairs of samples both present."
+    else:
+        fix += "; sb.Welch(gaps='skip') can estimate the PSD around them."
     return InputError(
         f"The data has {count} non-finite sample{'s' if count != 1 else ''} (NaN or inf), "
         f"first at {where}. {owner} cannot estimate through them. {fix}"

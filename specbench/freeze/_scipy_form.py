@@ -536,7 +536,10 @@ def scipy_body(state: FreezeState) -> str:
         lines += _shift_lines(onesided)
     acf = state.correlation_estimator
     if acf is not None:
-        if type(acf) is Autocorrelation and real:
+        if type(acf) is Autocorrelation and acf.gaps == "pairs":
+            lines += ["", "# Autocorrelation(gaps='pairs'): the present-pair lag sums have no faithful plain "
+                      "numpy/scipy form here; use the specbench form."]
+        elif type(acf) is Autocorrelation and real:
             # the PSD lines already refused non-finite samples, except Welch(gaps='skip')
             checked = writer is not None and getattr(est, "gaps", "error") == "error"
             lines += _autocorrelation(acf, var, finite_checked=checked)

@@ -256,7 +256,9 @@ class Session:
         shared = self.shared_fields()
         for slot in self.slots.values():
             if slot is not self.main:
-                own = {k: getattr(self.main.est, k) for k in shared if k in type(slot.est).params()}
+                params = type(slot.est).params()
+                own = {k: getattr(self.main.est, k) for k, p in shared.items()
+                       if k in params and params[k].constraint.describe() == p.constraint.describe()}
                 if own:
                     slot.est = slot.est.replace(**own)
         self.select(selection)  # a span or rate given in code that cannot apply raises here
