@@ -13,7 +13,11 @@ from scipy.io import wavfile
 from specbench._errors import InputError
 from specbench.data import Signal, load
 
-RNG = np.random.default_rng(11)
+
+def _rng():
+    """A fresh, seeded generator for each use: tests share no generator state."""
+    return np.random.default_rng(11)
+
 
 
 def _csv(tmp_path, text, name="bad.csv"):
@@ -235,7 +239,7 @@ class TestRaw:
 
     def test_wrong_byte_order(self, tmp_path):
         path = tmp_path / "be.bin"
-        RNG.standard_normal(4000).astype(">f8").tofile(path)
+        _rng().standard_normal(4000).astype(">f8").tofile(path)
         _raises(path, r"The first 4000 samples of be.bin, read as float64 \(little-endian\), "
                 r"include values beyond 1e30: the dtype, byte order", dtype="<f8", fs=1)
 

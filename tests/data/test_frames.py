@@ -11,17 +11,22 @@ import pytest
 import xarray as xr
 from numpy.testing import assert_allclose, assert_array_equal
 
+import specbench.estimators
 from specbench._errors import InputError
 from specbench.data import Signal, load
 
-RNG = np.random.default_rng(5)
+
+def _rng():
+    """A fresh, seeded generator for each use: tests share no generator state."""
+    return np.random.default_rng(5)
+
 
 
 class TestPandas:
     def test_datetime_index_at_250_hz_gives_exactly_250(self):
         # pandas.date_range with freq="4ms": intervals of exactly 4 000 000 ns
         idx = pd.date_range("2024-05-01 12:00", periods=25_000, freq="4ms")
-        sig = Signal.from_pandas(pd.Series(RNG.standard_normal(25_000), index=idx, name="p"))
+        sig = Signal.from_pandas(pd.Series(_rng().standard_normal(25_000), index=idx, name="p"))
         assert sig.fs == 250.0
         assert sig.channels == ("p",)
         assert sig.start == np.datetime64("2024-05-01T12:00", "ns") and sig.t0 == 0.0
@@ -31,7 +36,7 @@ class TestPandas:
         assert Signal.from_pandas(pd.Series(0.0, index=idx)).fs == 1000.0
 
     def test_frame_with_float_index_in_seconds(self):
-        frame = pd.DataFrame(RNG.standard_normal((1000, 2)), columns=["a", "b"],
+        frame = pd.DataFrame(_rng().standard_normal((1000, 2)), columns=["a", "b"],
                              index=np.arange(1000) / 512.0 + 3.0)
         sig = Signal.from_pandas(frame, unit="V")
         assert sig.fs == 512.0 and sig.t0 == 3.0 and sig.unit == "V"
@@ -64,7 +69,7 @@ class TestPandas:
 class TestXarray:
     def test_time_coordinate_and_channel_dim(self):
         t = np.arange(2000) / 1000.0
-        da = xr.DataArray(RNG.standard_normal((3, 2000)), dims=("sensor", "time"),
+        da = xr.DataArray(_rng().standard_normal((3, 2000)), dims=("sensor", "time"),
                           coords={"sensor": ["x", "y", "z"], "time": t}, name="accel",
                           attrs={"units": "m/s^2"})
         sig = Signal.from_xarray(da)
@@ -72,7 +77,7 @@ class TestXarray:
         assert_array_equal(sig.data, da.values)
 
     def test_time_first_is_transposed(self):
-        da = xr.DataArray(RNG.standard_normal((500, 2)), dims=("t", "ch"),
+        da = xr.DataArray(_rng().standard_normal((500, 2)), dims=("t", "ch"),
                           coords={"t": np.arange(500) / 50.0})
         sig = Signal.from_xarray(da)
         assert sig.data.shape == (2, 500) and sig.channels == ("ch0", "ch1")
@@ -96,10 +101,10 @@ class TestXarray:
 class TestEstimatorsAcceptContainers:
     @pytest.fixture(scope="class")
     def welch(self):
-        return pytest.importorskip("specbench.estimators").Welch(segment_length=256)
+        return specbench.estimators.Welch(segment_length=256)
 
     def test_series_frame_and_dataarray_give_the_signal_result(self, welch):
-        x = RNG.standard_normal((2, 8192))
+        x = _rng().standard_normal((2, 8192))
         t = np.arange(8192) / 1024.0
         ref = welch(Signal(x, 1024.0))
         frame = pd.DataFrame(x.T, index=t, columns=["a", "b"])
@@ -128,10 +133,10 @@ class TestEstimatorsAcceptContainers:
 
 class TestGapsEndToEnd:
     def test_fill_then_welch_skip(self, tmp_path):
-        Welch = pytest.importorskip("specbench.estimators").Welch
+        Welch = specbench.estimators.Welch
         fs, n = 1000.0, 20_000
         t = np.arange(n) / fs
-        x = RNG.standard_normal(n)
+        x = _rng().standard_normal(n)
         keep = np.ones(n, bool)
         keep[7_000:7_050] = False  # 50 rows lost by the logger
         path = tmp_path / "gappy.csv"
@@ -153,8 +158,8 @@ class TestGapsEndToEnd:
 
 class TestMemoryMap:
     def test_npy_memmap_estimates_like_the_array_in_memory(self, tmp_path):
-        Welch = pytest.importorskip("specbench.estimators").Welch
-        x = RNG.standard_normal((2, 1_000_000)).astype(np.float32)  # 8 MB
+        Welch = specbench.estimators.Welch
+        x = _rng().standard_normal((2, 1_000_000)).astype(np.float32)  # 8 MB
         path = tmp_path / "big.npy"
         np.save(path, x)
         sig = load(path, fs=2000.0)
@@ -163,8 +168,8 @@ class TestMemoryMap:
         assert_array_equal(est(sig).value, est(x, fs=2000.0).value)
 
     def test_raw_interleaved_memmap_estimates_like_the_array(self, tmp_path):
-        Welch = pytest.importorskip("specbench.estimators").Welch
-        frames = RNG.standard_normal((500_000, 3))
+        Welch = specbench.estimators.Welch
+        frames = _rng().standard_normal((500_000, 3))
         path = tmp_path / "daq.bin"
         frames.tofile(path)
         sig = load(path, dtype="<f8", n_channels=3, fs=10_000.0)

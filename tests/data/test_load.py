@@ -10,7 +10,11 @@ from scipy.io import wavfile
 from specbench._errors import InputError
 from specbench.data import load
 
-RNG = np.random.default_rng(7)
+
+def _rng():
+    """A fresh, seeded generator for each use: tests share no generator state."""
+    return np.random.default_rng(7)
+
 
 
 def _repeat(sig):
@@ -25,8 +29,8 @@ class TestCsv:
     def test_pandas_to_csv_reads_back_equal(self, tmp_path):
         # outside reference: pandas.DataFrame.to_csv writes the shortest round-trip repr
         n = 2000
-        frame = pd.DataFrame({"t": np.arange(n) / 500.0, "x": RNG.standard_normal(n),
-                              "y": RNG.standard_normal(n) * 1e-7})
+        frame = pd.DataFrame({"t": np.arange(n) / 500.0, "x": _rng().standard_normal(n),
+                              "y": _rng().standard_normal(n) * 1e-7})
         path = tmp_path / "run.csv"
         frame.to_csv(path, index=False)
         sig = load(path)
@@ -39,7 +43,7 @@ class TestCsv:
     def test_pandas_index_column_named_time(self, tmp_path):
         # outside reference: DataFrame.to_csv with a named float index
         idx = pd.Index(np.arange(300) * 0.001 + 2.0, name="time")
-        frame = pd.DataFrame({"p": RNG.standard_normal(300)}, index=idx)
+        frame = pd.DataFrame({"p": _rng().standard_normal(300)}, index=idx)
         path = tmp_path / "p.csv"
         frame.to_csv(path)
         sig = load(path)
@@ -84,7 +88,7 @@ class TestCsv:
     def test_iso_timestamps(self, tmp_path):
         # outside reference: pandas.date_range and DataFrame.to_csv write ISO 8601 stamps
         idx = pd.date_range("2024-05-01 08:00", periods=400, freq="2ms", name="timestamp")
-        frame = pd.DataFrame({"v": RNG.standard_normal(400)}, index=idx)
+        frame = pd.DataFrame({"v": _rng().standard_normal(400)}, index=idx)
         path = tmp_path / "dates.csv"
         frame.to_csv(path)
         sig = load(path)
@@ -127,7 +131,7 @@ class TestCsv:
 
     def test_jittery_timestamps_within_tolerance(self, tmp_path):
         n = 5000
-        t = np.arange(n) / 1000.0 + RNG.uniform(-0.1e-3, 0.1e-3, n)  # 0.1 interval
+        t = np.arange(n) / 1000.0 + _rng().uniform(-0.1e-3, 0.1e-3, n)  # 0.1 interval
         path = tmp_path / "j.csv"
         pd.DataFrame({"t": t, "x": 1.0}).to_csv(path, index=False)
         sig = load(path)
@@ -136,8 +140,8 @@ class TestCsv:
 
     def test_load_is_repeatable_from_origin(self, tmp_path):
         path = tmp_path / "r.csv"
-        pd.DataFrame({"time_s": np.arange(500) / 50.0, "a": RNG.standard_normal(500),
-                      "b": RNG.standard_normal(500)}).to_csv(path, index=False)
+        pd.DataFrame({"time_s": np.arange(500) / 50.0, "a": _rng().standard_normal(500),
+                      "b": _rng().standard_normal(500)}).to_csv(path, index=False)
         sig = load(path, channels=["b"]).span(1.0, 4.0)
         assert_array_equal(_repeat(sig).data, sig.data)
 
@@ -145,7 +149,7 @@ class TestCsv:
         import builtins
 
         path = tmp_path / "same.csv"
-        frame = pd.DataFrame({"t": np.arange(200) / 20.0, "x": RNG.standard_normal(200)})
+        frame = pd.DataFrame({"t": np.arange(200) / 20.0, "x": _rng().standard_normal(200)})
         frame.to_csv(path, index=False)
         fast = load(path)
         real_import = builtins.__import__
@@ -163,7 +167,7 @@ class TestCsv:
 
 class TestNumpy:
     def test_npy_is_a_memory_map(self, tmp_path):
-        x = RNG.standard_normal((2, 4096)).astype(np.float32)
+        x = _rng().standard_normal((2, 4096)).astype(np.float32)
         path = tmp_path / "x.npy"
         np.save(path, x)
         sig = load(path, fs=1000)
@@ -172,7 +176,7 @@ class TestNumpy:
         assert "memory-mapped" in sig.source
 
     def test_npy_samples_down_the_rows(self, tmp_path):
-        x = RNG.standard_normal((500, 3))
+        x = _rng().standard_normal((500, 3))
         path = tmp_path / "cols.npy"
         np.save(path, x)
         sig = load(path, fs=10, axis=0, channels=[2])
@@ -182,7 +186,7 @@ class TestNumpy:
     def test_npz_key_and_time_array(self, tmp_path):
         path = tmp_path / "rec.npz"
         t = np.arange(1000) / 2048.0
-        np.savez(path, t=t, accel=RNG.standard_normal((2, 1000)))
+        np.savez(path, t=t, accel=_rng().standard_normal((2, 1000)))
         sig = load(path)
         assert sig.fs == 2048.0 and sig.n_channels == 2
 
@@ -199,7 +203,7 @@ class TestWav:
     def test_scipy_wavfile_round_trip(self, tmp_path, dtype, scale):
         # outside reference: scipy.io.wavfile.write
         info = np.iinfo(dtype)
-        raw = RNG.integers(info.min, info.max, size=(3000, 2), endpoint=True).astype(dtype)
+        raw = _rng().integers(info.min, info.max, size=(3000, 2), endpoint=True).astype(dtype)
         path = tmp_path / "mic.wav"
         wavfile.write(path, 48000, raw)
         sig = load(path)
@@ -221,7 +225,7 @@ class TestWav:
         assert "24-bit integer PCM" in sig.source
 
     def test_float_wav_kept_as_stored(self, tmp_path):
-        x = RNG.standard_normal(1000).astype(np.float32)
+        x = _rng().standard_normal(1000).astype(np.float32)
         path = tmp_path / "f.wav"
         wavfile.write(path, 8000, x)
         sig = load(path)
@@ -255,7 +259,7 @@ def _write_wav(path, *, fmt_tag, channels, rate, bits, data):
 class TestHdf5:
     def test_dataset_with_rate_attribute_is_memory_mapped(self, tmp_path):
         h5py = pytest.importorskip("h5py")
-        x = RNG.standard_normal((2, 5000))
+        x = _rng().standard_normal((2, 5000))
         path = tmp_path / "daq.h5"
         with h5py.File(path, "w") as f:
             grp = f.create_group("run1")
@@ -271,7 +275,7 @@ class TestHdf5:
 
     def test_chunked_compressed_is_read_and_fs_argument(self, tmp_path):
         h5py = pytest.importorskip("h5py")
-        x = RNG.standard_normal(3000).astype(np.float32)
+        x = _rng().standard_normal(3000).astype(np.float32)
         path = tmp_path / "c.hdf5"
         with h5py.File(path, "w") as f:
             f.create_dataset("p", data=x, compression="gzip", chunks=(1000,))
@@ -291,7 +295,7 @@ class TestHdf5:
 
 class TestRaw:
     def test_interleaved_int16_memory_map(self, tmp_path):
-        frames = RNG.integers(-3000, 3000, size=(1000, 4)).astype("<i2")
+        frames = _rng().integers(-3000, 3000, size=(1000, 4)).astype("<i2")
         path = tmp_path / "stand.bin"
         frames.tofile(path)
         sig = load(path, dtype="<i2", n_channels=4, fs=51200)
@@ -301,7 +305,7 @@ class TestRaw:
         assert sig.origin["kwargs"] == {"dtype": "<i2", "n_channels": 4, "fs": 51200}
 
     def test_planar_float32_with_header(self, tmp_path):
-        x = RNG.standard_normal((2, 700)).astype(np.float32)
+        x = _rng().standard_normal((2, 700)).astype(np.float32)
         path = tmp_path / "p.raw"
         path.write_bytes(b"HDR!" * 4 + x.tobytes())
         sig = load(path, dtype=np.float32, n_channels=2, interleaved=False, offset=16, fs=10,

@@ -8,7 +8,7 @@ from specbench.estimators._engine import lagged_products
 
 
 def statsmodels_example():
-    # REFERENCES.md worked example for statsmodels.tsa.stattools.acf
+    # worked example computed with statsmodels.tsa.stattools.acf (Bartlett band, Box & Jenkins 1976)
     rng = np.random.default_rng(12345)
     e = rng.standard_normal(201)
     return e[1:] + 0.5 * e[:-1]

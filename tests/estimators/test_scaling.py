@@ -43,7 +43,7 @@ def test_parseval_integral_equals_variance(est):
 @pytest.mark.parametrize("window", ["boxcar", "hann", "flattop", ("kaiser", 12.0), "blackmanharris"])
 def test_on_bin_sine_reads_a_squared_over_two(window):
     # a sine of amplitude A on a bin gives a power-spectrum peak of A^2/2 for any window
-    # (common practice; REFERENCES.md "Scaling checks")
+    # (common practice)
     nperseg, amp = 1024, 3.0
     f0 = 100 * FS / nperseg
     t = np.arange(N) / FS

@@ -11,8 +11,8 @@ from specbench.estimators.windows import WINDOWS, Window, get_window
 
 # Harris, F. J. (1978). "On the use of windows for harmonic analysis with the discrete
 # Fourier transform." Proc. IEEE 66(1), 51-83, Table I (values recalled from memory; where
-# the exact computation differs from the rounded table, the computed value is used, as
-# listed in REFERENCES.md).  Columns: highest sidelobe dB, ENBW bins, 3-dB bandwidth bins,
+# the exact computation differs from the rounded table, the value computed with scipy from the
+# window's definition is used).  Columns: highest sidelobe dB, ENBW bins, 3-dB bandwidth bins,
 # scalloping loss dB, overlap correlation at 50 % and 75 %.
 HARRIS_TABLE_I = {
     "boxcar": (-13.26, 1.00, 0.89, 3.92, 0.500, 0.750),
@@ -27,7 +27,7 @@ HARRIS_TABLE_I = {
 def test_harris_table_i(name):
     sidelobe, enbw, bw3, scallop, oc50, oc75 = HARRIS_TABLE_I[name]
     info = sb.window_info(name, 1024)
-    # Harris (1978) Table I; tolerances 0.05 dB / 0.01 bin as REFERENCES.md advises
+    # Harris (1978) Table I; tolerances 0.05 dB / 0.01 bin (the table's rounding)
     assert info.highest_sidelobe_db == pytest.approx(sidelobe, abs=0.05 if name != "blackmanharris" else 0.1)
     assert info.enbw_bins == pytest.approx(enbw, abs=0.01)
     assert info.bandwidth_3db_bins == pytest.approx(bw3, abs=0.01)
