@@ -196,7 +196,9 @@ class CrossHost:
                             layout=W.Layout(flex_flow="row wrap", align_items="center")), "medium")
         row.add_class("sb-cross-pair")
         stack = [W.VBox([v.header, v.figure, v.footer]) for v in self.views]
-        self.widget = W.VBox([row, self.delay, *stack], layout=W.Layout(flex="1 1 0", min_width="250px"))
+        # a row of its own below the PSD and autocorrelation pair: three stacked plots need the width
+        self.widget = W.VBox([row, self.delay, *stack],
+                             layout=W.Layout(flex="1 1 100%", width="100%", min_width="250px"))
         self.widget.add_class("sb-view-cross")
 
     # -- pair ------------------------------------------------------------------------

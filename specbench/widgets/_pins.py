@@ -183,7 +183,8 @@ class PinBoard:
                 f"{' · '.join(html.escape(repr(e)) for e in p.estimators.values())} · {html.escape(data)}</div>",
                 layout=W.Layout(flex="1 1 auto"),
             )
-            remove = W.Button(description="", icon="times", layout=W.Layout(width="34px"),
+            remove = W.Button(description="", icon="times",  # never squeezed below its icon by a long label
+                              layout=W.Layout(width="46px", min_width="46px", flex="0 0 46px"),
                               tooltip=f"Remove the pin {p.label}")
             remove.add_class("sb-pin-remove")
             remove.on_click(lambda _, i=i: self._on_remove(i))
