@@ -172,6 +172,29 @@ def checkpoint() -> None:
         tracker.report(tracker.last)
 
 
+class _Ticks:
+    """Counts finished blocks and passes each to the progress callback and the cancel tracker
+    (as a block of the pass when ``report_blocks``, else only a cancellation check)."""
+
+    def __init__(self, total: int, report_blocks: bool) -> None:
+        self.report = _PROGRESS.get() if report_blocks else None
+        self.tracker = _TRACKER.get()
+        self.report_blocks = report_blocks
+        self.total = total
+        self.done = 0
+
+    def __call__(self, result: Any) -> Any:
+        self.done += 1
+        if self.report is not None:
+            self.report(self.done, self.total)
+        if self.tracker is not None:
+            if self.report_blocks:
+                self.tracker.block(self.done, self.total)
+            else:
+                self.tracker.check()
+        return result
+
+
 def ordered_map(func: Callable, items: Sequence, report_blocks: bool = True) -> Iterator:
     """``func(i) for i in items``, in order, on the worker threads.
 
@@ -181,26 +204,10 @@ def ordered_map(func: Callable, items: Sequence, report_blocks: bool = True) -> 
     started are dropped and the ones in flight are waited for, so no worker thread is
     left writing when the error reaches the caller.
     """
-    report = _PROGRESS.get() if report_blocks else None
-    tracker = _TRACKER.get()
-    total = len(items)
-    done = 0
-
-    def tick(result):
-        nonlocal done
-        done += 1
-        if report is not None:
-            report(done, total)
-        if tracker is not None:
-            if report_blocks:
-                tracker.block(done, total)
-            else:
-                tracker.check()
-        return result
-
-    if tracker is not None:
-        tracker.check()
-    if total <= 1 or _THREADS == 1:
+    tick = _Ticks(len(items), report_blocks)
+    if tick.tracker is not None:
+        tick.tracker.check()
+    if tick.total <= 1 or _THREADS == 1:
         yield from (tick(func(i)) for i in items)
         return
     pool = _pool()
@@ -378,8 +385,7 @@ def map_spans(kernel: Callable, x: Any, spans: Sequence[tuple[int, int]], per_sp
         return
     import dask
 
-    tracker = _TRACKER.get()
-    report = _PROGRESS.get() if report_blocks else None
+    tick = _Ticks(len(spans), report_blocks)
     groups: list[list[int]] = []
     for i, (a, b) in enumerate(spans):
         if groups and b - spans[groups[-1][0]][0] <= max(TASK_SAMPLES, b - a) and (
@@ -400,9 +406,8 @@ def map_spans(kernel: Callable, x: Any, spans: Sequence[tuple[int, int]], per_sp
                      for i in g]
             tasks.append(dask.delayed(_run_group, pure=True)(kernel, x[..., lo:hi], y[..., ly:hy], items, args))
     window = _in_flight()
-    done, total = 0, len(spans)
-    if tracker is not None:
-        tracker.check()
+    if tick.tracker is not None:
+        tick.tracker.check()
     for t0 in range(0, len(tasks), window):
         try:
             results = dask.compute(*tasks[t0 : t0 + window])
@@ -410,21 +415,13 @@ def map_spans(kernel: Callable, x: Any, spans: Sequence[tuple[int, int]], per_sp
             if isinstance(e, SpecbenchError):
                 raise
             raise ComputeError(
-                f"The dask computation failed while estimating (at block {done + 1} of {total}): "
+                f"The dask computation failed while estimating (at block {tick.done + 1} of {tick.total}): "
                 f"{type(e).__name__}: {e}. No result was produced. Check the cluster (workers "
                 "alive, enough memory per worker) and run the estimate again."
             ) from e
         for part in results:
             for r in part:
-                done += 1
-                if report is not None:
-                    report(done, total)
-                if tracker is not None:
-                    if report_blocks:
-                        tracker.block(done, total)
-                    else:
-                        tracker.check()
-                yield r
+                yield tick(r)
 
 
 def _channels_array(x: Any) -> Any:
