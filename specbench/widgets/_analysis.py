@@ -18,7 +18,11 @@ An analysis is one class.  It declares
   ``holds()`` (widgets to hold in sync while drawing), ``controls()`` (display-only controls by
   key) and ``marks_points()``;
 - ``freeze_lines(est, data_var)``: its lines in the specbench-form frozen cell (psd and acf
-  are written by the freeze layer itself, ``None`` here).
+  are written by the freeze layer itself, ``None`` here);
+- ``overlays(shown)``: model curves it draws over other analyses' views, ``{analysis name:
+  [Overlay, ...]}`` (e.g. a fitted noise model's PSD over the ``psd`` view);
+- ``settings_entry(est)``: the ``(estimator, options)`` its settings-file entry holds (default
+  ``(est, None)``; options are the analysis' JSON choices that are not estimator fields).
 
 Register a new one with :func:`register_analysis` (or pass ``analyses=`` to the Workbench);
 the Workbench then builds its controls, view, pins, status and frozen lines with no code of
@@ -173,11 +177,19 @@ class Analysis:
         """One line of the pin table for this analysis."""
         return repr(est)
 
+    def overlays(self, shown: Any) -> dict[str, list]:
+        """Model curves drawn over other analyses' views: ``{name: [Overlay, ...]}``."""
+        return {}
+
     # -- freezing ----------------------------------------------------------------
     def freeze_lines(self, est: Any, data_var: str) -> list[str] | None:
         """Lines of the specbench-form frozen cell (None: the freeze layer writes them)."""
         var = f"{self.name}_estimator"
         return [f"{var} = sb.{est!r}", f"{self.name} = {var}({data_var})"]
+
+    def settings_entry(self, est: Any) -> tuple[Any, dict | None]:
+        """``(estimator, options)`` of this analysis in a settings file."""
+        return est, None
 
     def __repr__(self) -> str:
         return f"<{type(self).__name__} {self.name!r}>"

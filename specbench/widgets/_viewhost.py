@@ -3,7 +3,8 @@
 A view host has ``widget`` (the box laid out in the Workbench), ``figure``,
 ``show(shown, pinned)`` (``pinned``: ``[(shown result, colour, dash)]``), ``holds()`` (the
 widgets held in sync while drawing), ``controls()`` (display-only controls by key, never part
-of an estimator), ``marks_points()`` and ``read(x)``.
+of an estimator), ``marks_points()`` and ``read(x)``; optionally ``set_overlays(overlays)``
+(model curves of other analyses, :meth:`Analysis.overlays`, set before each ``show``).
 """
 
 from __future__ import annotations
@@ -104,6 +105,13 @@ class SpectrumHost(TraceHost):
 
     def controls(self):
         return dict(self._options)
+
+    def holds(self) -> list:
+        return super().holds() + list(self.view.overlay_lines.values())
+
+    def set_overlays(self, overlays: list) -> None:
+        """Model curves of other analyses over the PSD (:class:`._views.Overlay`)."""
+        self.view.set_overlays(overlays)
 
 
 class CorrelationHost(TraceHost):

@@ -36,7 +36,7 @@ import numpy as np
 from ._reduce import reduce_sorted
 from ._style import AXIS_LABEL, BAND_OPACITY, CURRENT, PIN_BAND_OPACITY, gapped
 
-__all__ = ["Trace", "SpectrumView", "CorrelationView", "spectrum_trace", "correlation_trace", "fmt"]
+__all__ = ["Trace", "Overlay", "SpectrumView", "CorrelationView", "spectrum_trace", "correlation_trace", "fmt"]
 
 #: smallest y span of a logarithmic axis, in decades
 MIN_DECADES = 1.0
@@ -123,6 +123,23 @@ def y_limits(lo: float, hi: float, log: bool, min_linear: float = 0.0) -> tuple[
         mid = 0.5 * (lo + hi)
         return mid - floor / 2, mid + floor / 2
     return lo - 0.04 * span, hi + 0.04 * span
+
+
+@dataclass(frozen=True)
+class Overlay:
+    """A model curve another analysis draws over a view (e.g. a fitted noise model's PSD).
+
+    ``density(freq, onesided)`` returns the model's power spectral density in the
+    estimate's unit^2/Hz at ``freq`` (Hz; one-sided when ``onesided``); the PSD view converts
+    it to the "plot as" form of the estimate (amplitude density, dB, power).  It is drawn,
+    never fitted to: the y range follows the estimates only.
+    """
+
+    key: str
+    label: str
+    density: Any
+    colour: str
+    dash: str = "solid"
 
 
 @dataclass(frozen=True)
@@ -378,9 +395,10 @@ class _TraceView:
                 enable_hover=False, apply_clip=True))
         used = self.pin_lines[: len(pins)]
         bands = self.pin_bands[: len(pins)] if self.pin_band_toggle.value else []
+        extra = self._extra_marks(cur)
         # pin bands under the current band, the pin lines over it, the current line on top
-        marks = [*bands, self.band, *used, self.line]
-        holds = [self.figure, self.band, self.line, self.ax_y, self.xs, self.ys, *used, *bands]
+        marks = [*bands, self.band, *used, *extra, self.line]
+        holds = [self.figure, self.band, self.line, self.ax_y, self.xs, self.ys, *used, *bands, *extra]
         with contextlib.ExitStack() as stack:
             for w in holds:
                 stack.enter_context(w.hold_sync())
@@ -388,6 +406,7 @@ class _TraceView:
             self.band.y = np.vstack([cur.upper, cur.lower])
             self.line.x = cur.x
             self.line.y = cur.y
+            self._draw_extra(cur, extra)
             for m, (tr, colour, dash) in zip(used, pins):
                 m.x, m.y = tr.x, tr.y
                 m.colors = [colour]
@@ -409,6 +428,13 @@ class _TraceView:
             if not self.zoomed:
                 self._fit_x(traces)
             self._ticks()
+
+    def _extra_marks(self, cur: Trace) -> list:
+        """Marks drawn between the pins and the current line (none here)."""
+        return []
+
+    def _draw_extra(self, cur: Trace, marks: list) -> None:
+        """Fill the marks of :meth:`_extra_marks` for the current trace ``cur``."""
 
     def _fit_x(self, traces: list[Trace]) -> None:
         xs = [t.x for t in traces if t.size]
@@ -508,6 +534,58 @@ class SpectrumView(_TraceView):
         self.plot_as.observe(lambda ch: self.set_display(kind=ch["new"]), names="value")
         self.freq_axis.observe(lambda ch: self.set_display(xlog=ch["new"] == "log"), names="value")
         self.footer.children = [self.plot_as, self.freq_axis, self.readout]
+        # model curves of other analyses (set_overlays); the toggle shows only while there are some
+        self.overlays: list[Overlay] = []
+        self.overlay_lines: dict[str, bq.Lines] = {}
+        self.overlay_toggle = W.ToggleButton(value=True, description="models", layout=W.Layout(
+            width="auto", display="none"), tooltip="Show the model curves of the other analyses (e.g. the "
+                                                  "fitted noise model) over the estimate.")
+        self.overlay_toggle.add_class("sb-overlay-toggle")
+        self.overlay_toggle.observe(lambda ch: self.redraw(), names="value")
+        head = list(self.header.children)
+        head.insert(head.index(self.pin_band_toggle) + 1, self.overlay_toggle)
+        self.header.children = head
+
+    def set_overlays(self, overlays: list[Overlay]) -> None:
+        """The model curves to draw over the estimate (drawn at the next :meth:`redraw`)."""
+        self.overlays = list(overlays)
+        self.overlay_toggle.layout.display = None if self.overlays else "none"
+        for o in self.overlays:
+            if o.key not in self.overlay_lines:
+                line = bq.Lines(x=np.zeros(0), y=np.zeros(0), scales={"x": self.xs, "y": self.ys},
+                                stroke_width=1.8, enable_hover=False, apply_clip=True)
+                self.overlay_lines[o.key] = line
+
+    def _extra_marks(self, cur: Trace) -> list:
+        if not self.overlay_toggle.value:
+            return []
+        return [self.overlay_lines[o.key] for o in self.overlays]
+
+    def overlay_values(self, overlay: Overlay, freq: np.ndarray) -> np.ndarray:
+        """``overlay`` at ``freq`` in the view's "plot as" form of the estimate on screen."""
+        spec = self.result
+        with np.errstate(divide="ignore", invalid="ignore"):
+            d = np.asarray(overlay.density(freq, bool(getattr(spec, "onesided", True))), dtype=float)
+            d = np.where(np.isfinite(d) & (d > 0), d, np.nan)
+            if self.kind == "asd":
+                return np.sqrt(d)
+            if self.kind == "db":
+                return 10 * np.log10(d)
+            if self.kind == "power":
+                return d * spec.info.get("line_bandwidth_hz", spec.resolution)
+            return d
+
+    def _draw_extra(self, cur: Trace, marks: list) -> None:
+        for o, m in zip(self.overlays, marks):
+            try:
+                y = self.overlay_values(o, cur.x)
+            except Exception:  # a model curve never breaks the view of the estimate
+                y = np.full(cur.x.shape, np.nan)
+            m.x, m.y = cur.x, y
+            m.colors = [o.colour]
+            m.line_style = o.dash
+            m.labels = [o.label]
+            m.scales = {"x": self.xs, "y": self.ys}
 
     def _make_scales(self):
         return self._xs_log, self._ys_log
@@ -539,6 +617,13 @@ class SpectrumView(_TraceView):
 
     def _min_linear_span(self, lo: float, hi: float) -> float:
         return MIN_DB if self.kind == "db" else super()._min_linear_span(lo, hi)
+
+    def marks_points(self) -> dict[str, int]:
+        out = super().marks_points()
+        for key, m in self.overlay_lines.items():
+            if m in self.figure.marks:
+                out[f"overlay/{key}"] = int(np.asarray(m.y).size)
+        return out
 
     def _y_label(self, tr: Trace) -> str:
         name = {"density": "PSD", "asd": "ASD", "db": "PSD", "power": "Power"}[self.kind]

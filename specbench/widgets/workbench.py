@@ -537,8 +537,15 @@ class Workbench(W.VBox):
         with contextlib.ExitStack() as stack:
             for w in holds:
                 stack.enter_context(w.hold_sync())
+            overlays: dict[str, list] = {}
+            for slot in s.slots.values():
+                if slot.shown is not None:
+                    for target, items in slot.analysis.overlays(slot.shown).items():
+                        overlays.setdefault(target, []).extend(items)
             for name, host in self._hosts.items():
                 pinned = [(p.shown.get(name), p.color, p.line_style) for p in self._pins]
+                if hasattr(host, "set_overlays"):
+                    host.set_overlays(overlays.get(name, []))
                 host.show(shown.get(name), pinned)
             merits = []
             for slot in s.slots.values():
@@ -839,7 +846,12 @@ class Workbench(W.VBox):
     def freeze_state(self):
         """Everything the frozen code cell depends on (:class:`specbench.freeze.FreezeState`)."""
         s = self._session
-        extra = {n: x.est for n, x in s.slots.items() if n not in ("psd", "acf")}
+        extra, options = {}, {}
+        for n, x in s.slots.items():
+            if n not in ("psd", "acf"):
+                extra[n], opts = x.analysis.settings_entry(x.est)
+                if opts:
+                    options[n] = opts
         lines = {}
         for n, x in s.slots.items():
             if n in extra:
@@ -849,7 +861,8 @@ class Workbench(W.VBox):
         return FreezeState(
             signal=self._signal, data_name=self._data_name, channel=self.channel, span=self.span,
             fs_override=self.fs_override, estimator=self.estimator, correlation_estimator=self.correlation_estimator,
-            spectrum=self.spectrum, correlation=self.correlation, analyses=extra, code_lines=lines,
+            spectrum=self.spectrum, correlation=self.correlation, analyses=extra, options=options,
+            code_lines=lines,
         )
 
     def code(self, style: str = "specbench") -> str:
