@@ -21,7 +21,8 @@ import numpy as np
 
 from ..estimators import Covariance, CrossSpectrum
 from ._batch import AnalysisWriter, register_writer, write_table
-from ._describe import origin_call, py
+from ._describe import one_line, origin_call, py, wrap_comment
+from ._scipy_form import register_plain_form
 
 __all__ = ["cross_code"]
 
@@ -72,81 +73,136 @@ def cross_code(signal: Any, estimator: CrossSpectrum, *, pair: tuple | None = No
         return "\n".join(lines) + "\n"
     if style != "scipy":
         raise ValueError(f"style must be 'specbench' or 'scipy'; got {style!r}")
-    est = estimator
-    if est.gaps == "skip":
-        lines = head + [
-            "# No plain scipy form: CrossSpectrum(gaps='skip') leaves out the segments that touch",
-            "# non-finite samples, which scipy.signal.csd cannot do. Use the specbench form.",
-        ]
-        return "\n".join(lines) + "\n"
     a, b = (chans.index(n) for n in names)
-    nperseg = est.segment_length
-    noverlap = est.noverlap
-    nfft = est.nfft or nperseg
-    detrend = "False" if est.detrend == "none" else repr(est.detrend)
     lines = head + [
         "# plain numpy/scipy form: agrees with specbench to floating-point precision",
         "import numpy as np",
         "import scipy.signal",
-        "from scipy import stats",
+        "import scipy.stats",
         "import specbench as sb  # only to read the data",
         "",
     ]
+    if estimator.gaps == "skip":
+        return "\n".join(head + plain_cross_lines(estimator, "", "")) + "\n"
     lines += _signal_lines(signal, data_name)
-    lines += [
-        f"x, y = signal.data[{a}], signal.data[{b}]  # {names[0]!r} -> {names[1]!r}",
-        f"fs = {float(signal.fs)!r}",
-        f"confidence = {est.confidence!r}",
-        f"window = scipy.signal.get_window({py(est.window)}, {nperseg})",
-        f"kw = dict(fs=fs, window=window, nperseg={nperseg}, noverlap={noverlap}, nfft={nfft}, "
-        f"detrend={detrend}, scaling={est.scaling!r})",
-        "freq, csd = scipy.signal.csd(x, y, **kw)          # complex one-sided G_xy = conj(X) Y",
-        "_, gxx = scipy.signal.welch(x, **kw)",
-        "_, gyy = scipy.signal.welch(y, **kw)",
-        "_, coherence = scipy.signal.coherence(x, y, **{k: v for k, v in kw.items() if k != 'scaling'})",
+    lines += [f"x, y = signal.data[{a}], signal.data[{b}]  # {names[0]!r} -> {names[1]!r}",
+              f"fs = {float(signal.fs)!r}"]
+    lines += plain_cross_lines(estimator, "x", "y")
+    if band is not None:
+        lines += ["# the phase-slope delay (result.delay) has no scipy counterpart: use the specbench form"]
+    return "\n".join(lines) + "\n"
+
+
+def plain_cross_lines(est: CrossSpectrum, x: str, y: str, *, fs: str = "fs", prefix: str = "") -> list[str]:
+    """numpy/scipy lines of a cross-spectral estimate of the 1-D arrays named ``x`` and ``y``
+    sampled at ``fs`` (a variable name).
+
+    They assign ``{prefix}freq``, ``csd``, ``coherence``, ``threshold``, the coherence, phase
+    and gain bands (``coherence_lower`` ... ``gain_upper``) and ``nd``, every name (helpers
+    included) starting with ``prefix``, so the lines can sit in a cell beside other analyses.
+    ``gaps="skip"`` has no plain form: the lines then say so.
+    """
+    if est.gaps == "skip":
+        return [
+            "# No plain scipy form: CrossSpectrum(gaps='skip') leaves out the segments that touch",
+            "# non-finite samples, which scipy.signal.csd cannot do. Use the specbench form.",
+        ]
+    nperseg = est.segment_length
+    noverlap = est.noverlap
+    nfft = est.nfft or nperseg
+    detrend = "False" if est.detrend == "none" else repr(est.detrend)
+    p = prefix
+    lines = [
+        f"{p}confidence = {est.confidence!r}",
+        f"{p}window = scipy.signal.get_window({py(est.window)}, {nperseg})",
+        f"{p}kw = dict(fs={fs}, window={p}window, nperseg={nperseg}, noverlap={noverlap}, nfft={nfft},",
+        f"{' ' * len(p)}          detrend={detrend}, scaling={est.scaling!r})",
+        f"{p}freq, {p}csd = scipy.signal.csd({x}, {y}, **{p}kw)  # complex one-sided G_xy = conj(X) Y",
+        f"_, {p}gxx = scipy.signal.welch({x}, **{p}kw)",
+        f"_, {p}gyy = scipy.signal.welch({y}, **{p}kw)",
+        f"{p}kw_coherence = {{k: v for k, v in {p}kw.items() if k != 'scaling'}}",
+        f"_, {p}coherence = scipy.signal.coherence({x}, {y}, **{p}kw_coherence)",
         "",
         "# n_d: overlap-corrected number of independent segments, K^2 / (K + 2 sum_d (K - d) rho(d)),",
         "# rho(d) = (sum_t w_t w_(t + d step))^2 / (sum_t w_t^2)^2 (Percival & Walden 1993 eq. (292b))",
-        f"step = {nperseg - noverlap}",
-        f"K = (x.size - {nperseg}) // step + 1",
-        "total, d = float(K), 1",
-        "while d * step < window.size and d < K:",
-        "    rho = (np.dot(window[: window.size - d * step], window[d * step:]) / np.dot(window, window)) ** 2",
-        "    total += 2.0 * rho * (K - d)",
-        "    d += 1",
-        "nd = np.full(freq.size, K * K / total)",
-        "nd[0] *= 0.5  # DC (and Nyquist, for an even FFT length) of real data: half",
+        f"{p}step = {nperseg - noverlap}",
+        f"{p}K = ({x}.size - {nperseg}) // {p}step + 1",
+        f"{p}total, {p}d = float({p}K), 1",
+        f"while {p}d * {p}step < {p}window.size and {p}d < {p}K:",
+        f"    {p}rho = np.dot({p}window[: {p}window.size - {p}d * {p}step], {p}window[{p}d * {p}step:])",
+        f"    {p}rho = ({p}rho / np.dot({p}window, {p}window)) ** 2",
+        f"    {p}total += 2.0 * {p}rho * ({p}K - {p}d)",
+        f"    {p}d += 1",
+        f"{p}nd = np.full({p}freq.size, {p}K * {p}K / {p}total)",
+        f"{p}nd[0] *= 0.5  # DC (and Nyquist, for an even FFT length) of real data: half",
     ]
     if nfft % 2 == 0:
-        lines.append("nd[-1] *= 0.5")
+        lines.append(f"{p}nd[-1] *= 0.5")
     lines += [
         "",
         "# Carter (1987): zero true coherence exceeds the threshold with probability 1 - confidence",
-        "threshold = 1.0 - (1.0 - confidence) ** (1.0 / (nd - 1.0))",
+        f"{p}threshold = 1.0 - (1.0 - {p}confidence) ** (1.0 / ({p}nd - 1.0))",
         "# coherence band: Fisher z of |gamma|, bias and variance 1/(2(n_d - 1)) (Enochson & Goodman 1965)",
-        "z = stats.norm.ppf(0.5 + confidence / 2)",
-        "zh = np.arctanh(np.sqrt(np.clip(coherence, 0.0, 1.0 - 1e-16))) - 1.0 / (2.0 * (nd - 1.0))",
-        "sd = 1.0 / np.sqrt(2.0 * (nd - 1.0))",
-        "coherence_lower = np.tanh(np.maximum(zh - z * sd, 0.0)) ** 2",
-        "coherence_upper = np.maximum(np.tanh(np.maximum(zh + z * sd, 0.0)) ** 2, coherence_lower)",
+        f"{p}z = scipy.stats.norm.ppf(0.5 + {p}confidence / 2)",
+        f"{p}zh = np.arctanh(np.sqrt(np.clip({p}coherence, 0.0, 1.0 - 1e-16))) - 1.0 / (2.0 * ({p}nd - 1.0))",
+        f"{p}sd = 1.0 / np.sqrt(2.0 * ({p}nd - 1.0))",
+        f"{p}coherence_lower = np.tanh(np.maximum({p}zh - {p}z * {p}sd, 0.0)) ** 2",
+        f"{p}coherence_upper = np.tanh(np.maximum({p}zh + {p}z * {p}sd, 0.0)) ** 2",
+        f"{p}coherence_upper = np.maximum({p}coherence_upper, {p}coherence_lower)",
         "# phase and H1 gain: normalised random error sqrt(1 - g^2) / (|g| sqrt(2 (n_d - 1)))",
         "# (Bendat & Piersol 2010 Table 9.6), Student t quantile with 2 n_d - 2 degrees of freedom;",
         "# where the coherence is not significant the phase is unknown (+-pi) and the gain is bounded",
         "# by |gamma| sqrt(G_yy / G_xx) at the upper coherence",
-        "transfer = csd / gxx",
-        "gain, phase = np.abs(transfer), np.angle(csd)",
-        "eps = np.sqrt(np.clip(1.0 - coherence, 0.0, None)) / (np.sqrt(coherence) * np.sqrt(2.0 * (nd - 1.0)))",
-        "t = stats.t.ppf(0.5 + confidence / 2, np.maximum(2.0 * nd - 2.0, 1.0))",
-        "significant = coherence > threshold",
-        "half = np.where(significant, np.minimum(t * eps, np.pi), np.pi)",
-        "phase_lower, phase_upper = phase - half, phase + half",
-        "gain_lower = np.where(significant, gain * np.exp(-t * eps), 0.0)",
-        "gain_bound = np.maximum(np.sqrt(coherence_upper * gyy / gxx), gain)  # |H1| = |gamma| sqrt(G_yy / G_xx)",
-        "gain_upper = np.where(significant, gain * np.exp(t * eps), gain_bound)",
+        f"{p}transfer = {p}csd / {p}gxx",
+        f"{p}gain, {p}phase = np.abs({p}transfer), np.angle({p}csd)",
+        f"{p}eps = np.sqrt(np.clip(1.0 - {p}coherence, 0.0, None) / (2.0 * ({p}nd - 1.0)))",
+        f"{p}eps = {p}eps / np.sqrt({p}coherence)",
+        f"{p}t = scipy.stats.t.ppf(0.5 + {p}confidence / 2, np.maximum(2.0 * {p}nd - 2.0, 1.0))",
+        f"{p}significant = {p}coherence > {p}threshold",
+        f"{p}half = np.where({p}significant, np.minimum({p}t * {p}eps, np.pi), np.pi)",
+        f"{p}phase_lower, {p}phase_upper = {p}phase - {p}half, {p}phase + {p}half",
+        f"{p}gain_lower = np.where({p}significant, {p}gain * np.exp(-{p}t * {p}eps), 0.0)",
+        f"{p}gain_bound = np.sqrt({p}coherence_upper * {p}gyy / {p}gxx)  # |H1| = |gamma| sqrt(G_yy / G_xx)",
+        f"{p}gain_bound = np.maximum({p}gain_bound, {p}gain)",
+        f"{p}gain_upper = np.where({p}significant, {p}gain * np.exp({p}t * {p}eps), {p}gain_bound)",
     ]
+    return lines
+
+
+def _plain_analysis_lines(state: Any, name: str, est: CrossSpectrum, options: dict) -> list[str]:
+    """The cross analysis of a workbench in its plain cell: the pair's rows of the data, at the
+    workbench's rate and span (every channel: the data strip's channel choice does not apply)."""
+    from dataclasses import replace
+
+    from ._scipy_form import numpy_selection
+
+    chans = list(state.signal.channels)
+    if len(chans) < 2:  # the view says it needs two channels; nothing to reproduce
+        return []
+    pair = options.get("pair") or chans[:2]
+    a, b = (chans.index(c) if isinstance(c, str) else int(c) for c in pair)
+    _, _, cols, _ = numpy_selection(replace(state, channel=None))
+    cut = "" if cols is None else f", {cols[0]}:{cols[1]}"
+    p = f"{name}_"
+    lines = [""] + wrap_comment(
+        f"Cross spectrum {chans[a]} -> {chans[b]} (analysis {name!r}, {est!r}): rows {a} and {b} of "
+        f"`{state.data_name}`, every channel at the same rate and span; names start with {p}"
+    )
+    if est.gaps == "skip":
+        return lines + plain_cross_lines(est, "", "", prefix=p)
+    lines += [
+        f"{p}x = np.atleast_2d({state.data_name})[{a}{cut}]  # {one_line(chans[a])}",
+        f"{p}y = np.atleast_2d({state.data_name})[{b}{cut}]  # {one_line(chans[b])}",
+        f"if not (np.all(np.isfinite({p}x)) and np.all(np.isfinite({p}y))):",
+        f'    raise ValueError("NaN or inf samples: {type(est).__name__}(gaps=\'error\') does not estimate '
+        'through them.")',
+    ]
+    lines += plain_cross_lines(est, f"{p}x", f"{p}y", prefix=p)
+    band = options.get("band")
     if band is not None:
-        lines += ["# the phase-slope delay (result.delay) has no scipy counterpart: use the specbench form"]
-    return "\n".join(lines) + "\n"
+        lines += wrap_comment(f"The phase-slope delay ({name}.delay(band={py(tuple(float(v) for v in band))})) "
+                              "has no scipy counterpart: use the specbench form.")
+    return lines
 
 
 # ---------------------------------------------------------------- specbench estimate
@@ -202,6 +258,7 @@ def _write_covariance(path, cov: Any, meta: dict) -> None:
 register_writer("CrossSpectrum", AnalysisWriter(
     write=_write_cross, run=_run_cross, metadata=_cross_meta,
     describe=lambda r: f"{r[0].freq.size:,} frequencies" + (f", delay {r[1].value:.6g} s" if r[1] else "")))
+register_plain_form(CrossSpectrum, _plain_analysis_lines)
 register_writer("Covariance", AnalysisWriter(
     write=_write_covariance, metadata=lambda c: dict(channels=list(c.channels), confidence=c.confidence),
     describe=lambda c: f"{len(c.channels)} x {len(c.channels)} matrix"))

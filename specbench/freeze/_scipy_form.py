@@ -15,6 +15,7 @@ exactly as ``spectrum.value`` / ``correlation.value`` are shaped.
 
 from __future__ import annotations
 
+from collections.abc import Callable
 from typing import Any
 
 import numpy as np
@@ -24,7 +25,22 @@ from ._codegen import container_converter, input_guard
 from ._describe import one_line, origin_call, py, wrap_comment
 from ._state import FreezeState
 
-__all__ = ["scipy_body", "numpy_selection"]
+__all__ = ["scipy_body", "numpy_selection", "register_plain_form"]
+
+#: estimator class -> ``writer(state, name, estimator, options) -> lines``: the plain-form lines
+#: of a named analysis beyond psd/acf (the analysis modules of the freeze layer register theirs)
+PLAIN_FORMS: dict[type, Callable[[FreezeState, str, Any, dict], list[str]]] = {}
+
+
+def register_plain_form(cls: type, writer: Callable[[FreezeState, str, Any, dict], list[str]]) -> None:
+    """Teach the plain numpy/scipy cell an analysis of estimator class ``cls``.
+
+    ``writer(state, name, estimator, options)`` returns the analysis' lines (they may use
+    ``np``, ``scipy.signal``, ``scipy.stats``, ``scipy.fft``, the data variable
+    ``state.data_name`` and ``fs``), every name they assign prefixed with ``name + "_"``;
+    ``options`` are the analysis' choices (``state.options[name]``, ``{}`` when none).
+    """
+    PLAIN_FORMS[cls] = writer
 
 EDGE_NOTE = "# DC (and Nyquist, for an even FFT length) of real data: half the degrees of freedom"
 
@@ -546,4 +562,20 @@ def scipy_body(state: FreezeState) -> str:
         else:
             lines += ["", f"# {type(acf).__name__}: no plain numpy/scipy form is written for it on this data; "
                       "use the specbench form."]
+    lines += _analysis_lines(state)
     return "\n".join(lines) + "\n"
+
+
+def _analysis_lines(state: FreezeState) -> list[str]:
+    """The plain-form lines of the named analyses beyond psd/acf, in the workbench's order."""
+    from . import _batch  # noqa: F401  (imports the analysis form modules, which register their plain forms)
+
+    out: list[str] = []
+    for name, est in getattr(state, "analyses", {}).items():
+        writer = PLAIN_FORMS.get(type(est))
+        if writer is None:
+            out += [""] + wrap_comment(f"Analysis {name!r} ({type(est).__name__}): no plain numpy/scipy form is "
+                                       "written for it; use the specbench form.")
+            continue
+        out += writer(state, name, est, dict(getattr(state, "options", {}).get(name, {})))
+    return out

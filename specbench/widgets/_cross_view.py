@@ -423,5 +423,15 @@ class CrossAnalysis(Analysis):
                 lines += wrap_comment(f"{call} is left out: {self.delay_note}")
         return lines
 
+    def settings_entry(self, est: Any) -> tuple[Any, dict | None]:
+        """The pair on screen (and the delay band, when its readout has a clean value) go into the
+        settings file's options; the plain numpy/scipy cell reads them too."""
+        if self.last_result is None:
+            return est, None
+        out: dict = {"pair": list(self.pair)}
+        if self.band is not None and self.delay_note is None:
+            out["band"] = [float(b) for b in self.band]
+        return est, out
+
 
 _ = (contextlib, math, CURRENT)

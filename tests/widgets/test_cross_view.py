@@ -105,3 +105,41 @@ def test_in_memory_data_freezes_under_its_own_name(duct):
     ns = {"pressures": frame}
     exec(compile(code, "<frozen>", "exec"), ns)
     assert np.array_equal(ns["cross"].coherence, wb.views["cross"]._shown.coherence)
+
+
+def test_plain_scipy_cell_reproduces_the_cross_numbers_on_screen():
+    # bench.code(style="scipy"): scipy.signal.csd / welch / coherence plus explicit lines for the
+    # threshold (Carter 1987) and the bands, on the pair and span on screen; compared with the
+    # Workbench's own numbers (scipy.signal.csd is the outside reference, as in test_cross.py).
+    rng = np.random.default_rng(11)
+    raw = rng.standard_normal((3, 40_000))
+    raw[2] = np.convolve(raw[0], [0.3, 0.5, 0.2], mode="same") + 0.6 * raw[2]
+    sig = sb.Signal(raw, fs=1000.0, channels=["drive", "spare", "response"], unit="V")
+    wb = Workbench(sig, data_name="volts", estimators={"cross": sb.CrossSpectrum(segment_length=512, overlap=0.6)})
+    wb.controls["span"].value = (2.0, 37.0)
+    wb.controls["fs"].value = 2000.0
+    host = wb.views["cross"]
+    host.x_menu.value, host.y_menu.value = "drive", "response"
+    shown = host._shown
+    assert shown.channels == ("drive", "response") and shown.fs == 2000.0
+    code = wb.code(style="scipy")
+    assert "scipy.signal.csd(cross_x, cross_y, **cross_kw)" in code
+    assert "cross_threshold = 1.0 - (1.0 - cross_confidence)" in code
+    ns = {"volts": raw}
+    exec(compile(code, "<frozen>", "exec"), ns)
+    np.testing.assert_array_equal(ns["cross_freq"], shown.freq)
+    np.testing.assert_allclose(ns["cross_csd"], shown.csd, rtol=1e-10, atol=1e-18)
+    for k in ("coherence", "coherence_lower", "coherence_upper", "phase", "phase_lower", "phase_upper",
+              "gain", "gain_lower", "gain_upper"):
+        np.testing.assert_allclose(ns[f"cross_{k}"][1:-1], getattr(shown, k)[1:-1], rtol=1e-8, atol=1e-12,
+                                   err_msg=k)  # DC: 0/0 after detrending in both
+    np.testing.assert_allclose(ns["cross_threshold"], shown.coherence_threshold, rtol=1e-12)
+    # the PSD of the data strip's channel is still there, unchanged by the cross lines
+    np.testing.assert_allclose(ns["psd"], wb.spectrum.value, rtol=1e-9)
+    # the settings file carries the pair (options) for `specbench estimate`
+    assert wb.freeze_state().options["cross"]["pair"] == ["drive", "response"]
+
+
+def test_plain_scipy_cell_of_a_single_channel_record_has_no_cross_lines():
+    wb = Workbench(sb.demo("white-noise", duration=5.0))
+    assert "cross_" not in wb.code(style="scipy")
