@@ -7,7 +7,9 @@ Layout (one job per module):
 - ``_session`` — the analysis state and its transactional update, pure Python;
 - ``_binding`` — controls generated for each analysis and bound to it;
 - ``_scheduler`` — now / coalesced / background-thread computes, progress and cancel;
-- ``_status`` — the status line; ``_pins`` — pins;
+- ``_status`` — the status line's text (pure Python); ``_statusline`` — its widgets and the
+  progress row; ``_pins`` — pins (pin / remove / clear) and the pin table;
+- ``_export`` — ``bench.export`` (SVG / PNG) and its toolbar button;
 - panels: ``_datastrip``, ``_controls`` (from the constraint tables), ``_viewhost`` (analysis
   views over ``_views``), ``_merit``, ``freeze_panel``; ``_reduce`` and ``_style``.
 

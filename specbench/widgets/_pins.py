@@ -4,10 +4,15 @@ A pin holds the full-resolution results and the settings that made them.  Its la
 (unless the user gave one) is built from the settings that differ between the pins, so
 it says what the comparison is about: ``segment_length=4096, window=hamming``.  Each pin
 keeps the colour and dash it was given while it lives; a removed pin's style is reused.
+
+:class:`Pins` is the Workbench's part that owns them: pin / remove / clear (from code and
+from the pin table's buttons), the labels and styles, and the refusals it reports through
+the session's problems.
 """
 
 from __future__ import annotations
 
+import contextlib
 import html
 from collections.abc import Callable
 from dataclasses import dataclass, field
@@ -15,10 +20,13 @@ from typing import Any
 
 import ipywidgets as W
 
+from .._errors import SpecbenchError
 from ._merit import spectrum_merits
+from ._session import Problem
+from ._status import guarded
 from ._style import DASH_ARRAY, PIN_STYLES, gapped
 
-__all__ = ["Pin", "PinBoard", "MAX_PINS", "settings_of", "auto_labels"]
+__all__ = ["Pin", "Pins", "PinBoard", "MAX_PINS", "settings_of", "auto_labels"]
 
 MAX_PINS = len(PIN_STYLES)
 _LABEL_CHARS = 72
@@ -192,3 +200,86 @@ class PinBoard:
             row.add_class("sb-pin-row")
             rows.append(row)
         self.table.children = rows
+
+
+class Pins:
+    """The pins of a Workbench: what is pinned, its table, and pin / remove / clear.
+
+    ``redraw()`` redraws the views (their pin marks); ``report()`` refreshes the status line
+    after the session's problems changed.  Methods called from code raise
+    :class:`~specbench.SpecbenchError` (and say so in the status line); the table's buttons
+    never raise.
+    """
+
+    def __init__(self, session, redraw: Callable[[], None], report: Callable[[], None]) -> None:
+        self._session = session
+        self._redraw = redraw
+        self._report = report
+        self.items: list[Pin] = []
+        ui = guarded(session, report)
+        self.board = PinBoard(ui(self._pin_from_ui), ui(self.remove), ui(self.clear))
+
+    def _free_style(self) -> tuple[str, str]:
+        used = {(p.color, p.line_style) for p in self.items}
+        return next(s for s in PIN_STYLES if s not in used)
+
+    def _relabel(self) -> None:
+        auto = auto_labels([p.settings for p in self.items], [p.main_estimator for p in self.items])
+        for p, label in zip(self.items, auto):
+            if not p.user_label:
+                p.label = label
+
+    def _changed(self) -> None:
+        self.board.show(self.items)
+        self._redraw()
+        self._report()
+
+    def pin(self, label: str | None = None) -> Pin:
+        s = self._session
+        if s.main.result is None:
+            msg = ("There is no estimate on screen to pin yet: no setting has given one. Fix the setting "
+                   "the status line names first.")
+            s.errors["nopin"] = Problem(msg)
+            self._report()
+            raise SpecbenchError(msg)
+        if len(self.items) >= MAX_PINS:
+            msg = (f"{MAX_PINS} pins are on screen, the most the views can tell apart. Remove one "
+                   "(× in the pin table) or all of them before pinning another.")
+            s.errors["pins"] = Problem(msg)
+            self._report()
+            raise SpecbenchError(msg)
+        s.errors.pop("pins", None)
+        color, dash = self._free_style()
+        on = [slot for slot in s.slots.values() if slot.result is not None]
+        p = Pin(
+            label=label or "", estimators={x.name: x.est for x in on}, results={x.name: x.result for x in on},
+            shown={x.name: x.shown for x in on}, channel=s.sel.channel, span=s.sel.span, fs=s.main.result.fs,
+            color=color, line_style=dash, user_label=bool(label), settings=settings_of(s),
+        )
+        self.items.append(p)
+        self._relabel()
+        self._changed()
+        return p
+
+    def remove(self, which: int | str | Pin) -> None:
+        if isinstance(which, Pin):
+            idx = next((i for i, p in enumerate(self.items) if p is which), None)
+        elif isinstance(which, str):
+            idx = next((i for i, p in enumerate(self.items) if p.label == which), None)
+        else:
+            idx = int(which) if -len(self.items) <= int(which) < len(self.items) else None
+        if idx is None:
+            raise SpecbenchError(f"No pin {which!r}; the pins are {[p.label for p in self.items]}.")
+        del self.items[idx]
+        self._session.errors.pop("pins", None)
+        self._relabel()
+        self._changed()
+
+    def clear(self) -> None:
+        self.items.clear()
+        self._session.errors.pop("pins", None)
+        self._changed()
+
+    def _pin_from_ui(self) -> None:
+        with contextlib.suppress(SpecbenchError):  # the message is in the status line
+            self.pin()

@@ -46,7 +46,8 @@ class _Cancelled(SpecbenchError):
 #: what a cancelled computation raises
 CANCELLED = getattr(_errors, "Cancelled", _Cancelled)
 
-__all__ = ["check_selection", "DataSelection", "Problem", "Slot", "Session", "Job", "Attempt", "DATA_KEYS"]
+__all__ = ["check_selection", "gap_defaults", "DataSelection", "Problem", "Slot", "Session", "Job", "Attempt",
+           "DATA_KEYS"]
 
 _log = logging.getLogger("specbench.widgets")
 _log.addHandler(logging.NullHandler())
@@ -76,6 +77,41 @@ class Problem:
 
 def _number(v: Any) -> bool:
     return isinstance(v, (int, float)) and not isinstance(v, bool)
+
+
+def gap_defaults(signal: Any, wanted: dict[str, Any], analyses: list[Analysis]) -> str | None:
+    """Analyses not given an estimator in code take the gap policy the data need (NaN-filled gaps).
+
+    Fills ``wanted`` (analysis name -> estimator) in place; returns the note that says so, or None.
+    """
+    import numpy as np
+
+    try:
+        data = signal.data
+        has_gaps = bool(np.issubdtype(data.dtype, np.floating) and np.isnan(data).any())
+    except Exception:  # an unusual container: keep the defaults
+        return None
+    if not has_gaps:
+        return None
+    changed = []
+    for a in analyses:
+        if a.name in wanted:
+            continue
+        est = a.default_estimator()
+        spec = type(est).params().get("gaps")
+        if spec is None:
+            continue
+        for policy in ("skip", "pairs", "present"):
+            try:
+                wanted[a.name] = est.replace(gaps=policy)
+                changed.append(f"{type(est).__name__}(gaps={policy!r})")
+                break
+            except SpecbenchError:
+                continue
+    if not changed:
+        return None
+    return ("The data has gaps (NaN samples, e.g. from sb.load(..., on_gap='fill')); the workbench "
+            "opened with " + ", ".join(changed) + ", which leave them out.")
 
 
 def check_selection(signal: Any, channel: Any, fs: Any, span: Any) -> tuple[str, str] | None:

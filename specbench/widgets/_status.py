@@ -1,15 +1,24 @@
 """The status line: plain text (``bench.status``) and its escaped HTML, from the session state.
 
 Pure Python.  Every user string (messages naming channels, units, files) is escaped with
-:func:`html.escape` before it reaches the HTML widget.
+:func:`html.escape` before it reaches the HTML widget.  :func:`guarded` wraps the handlers of
+front-end events so that they never raise: an error becomes a problem of the session, shown
+in the status line.
 """
 
 from __future__ import annotations
 
+import functools
 import html
+import logging
+from collections.abc import Callable
 from dataclasses import dataclass
 
-__all__ = ["Status", "status_of", "busy_status"]
+from .._errors import SpecbenchError
+
+__all__ = ["Status", "status_of", "busy_status", "guarded"]
+
+_log = logging.getLogger("specbench.widgets")
 
 #: order in which the problems are listed
 _ORDER = ("code", "internal", "data", "pins", "nopin")
@@ -65,3 +74,25 @@ def busy_status(what: str, expected: float | None) -> Status:
     if expected is not None and expected > 0:
         text += f" (expected about {duration(expected)})"
     return Status(text, _muted(text), "busy")
+
+
+def guarded(session, report: Callable[[], None]) -> Callable[[Callable], Callable]:
+    """A decorator for front-end handlers: errors go to the status line (``report()``) and the log."""
+    from ._session import Problem, internal_message
+
+    def decorate(fn: Callable) -> Callable:
+        @functools.wraps(fn)
+        def wrapper(*args, **kwargs):
+            try:
+                return fn(*args, **kwargs)
+            except SpecbenchError as e:
+                session.errors["internal"] = Problem(str(e))
+                report()
+            except Exception as e:
+                _log.exception("Workbench: unexpected error")
+                session.errors["internal"] = Problem(internal_message(e))
+                report()
+
+        return wrapper
+
+    return decorate

@@ -6,8 +6,9 @@ A thin facade over its parts, one job each:
 - :mod:`._session` — the analysis state and the transactional update (pure Python);
 - :mod:`._binding` — the controls generated for each analysis, read and written;
 - :mod:`._scheduler` — when an update computes (now, coalesced, or in a worker thread);
-- :mod:`._status` — the status line; :mod:`._pins` — pins; the panels (data strip, views,
-  figures of merit, freeze panel) in their own modules.
+- :mod:`._status` — the status line's text, :mod:`._statusline` — its widgets and the progress
+  row; :mod:`._pins` — pins and the pin table; the panels (data strip, views, figures of
+  merit, freeze panel) in their own modules.
 
 Behaviour
 ---------
@@ -26,7 +27,6 @@ Behaviour
 from __future__ import annotations
 
 import contextlib
-import html
 import logging
 import math
 import time
@@ -43,10 +43,11 @@ from ._controls import Context
 from ._datastrip import DataStrip
 from ._export import export_control as _export_control
 from ._merit import MeritPanel
-from ._pins import MAX_PINS, PIN_STYLES, Pin, PinBoard, auto_labels, settings_of
+from ._pins import Pin, Pins
 from ._scheduler import BACKGROUND_SECONDS, COALESCE_SECONDS, Scheduler
-from ._session import DataSelection, Problem, Session, check_selection, internal_message
-from ._status import Status, busy_status, status_of
+from ._session import DataSelection, Problem, Session, check_selection, gap_defaults, internal_message
+from ._status import guarded, status_of
+from ._statusline import StatusLine
 from ._style import gapped, style_sheet
 
 __all__ = ["Workbench", "spectral_classes", "carry_over", "COALESCE_SECONDS"]
@@ -61,15 +62,7 @@ def _guarded(fn):
     """Observers never raise: errors go to the status line and the log."""
 
     def wrapper(self, *args, **kwargs):
-        try:
-            return fn(self, *args, **kwargs)
-        except SpecbenchError as e:
-            self._session.errors["internal"] = Problem(str(e))
-            self._show_status()
-        except Exception as e:
-            _log.exception("Workbench: unexpected error")
-            self._session.errors["internal"] = Problem(internal_message(e))
-            self._show_status()
+        return guarded(self._session, self._show_status)(fn)(self, *args, **kwargs)
 
     wrapper.__name__ = fn.__name__
     wrapper.__doc__ = fn.__doc__
@@ -179,34 +172,20 @@ class Workbench(W.VBox):
             raise SettingsError(f"No analysis named {sorted(unknown)}; the analyses are {[a.name for a in analyses]}.")
         ch = self._channel_name(channel)
         sel = DataSelection(ch, fs, None if span is None else tuple(float(s) for s in span))
-        self._gap_note = self._gap_defaults(wanted, analyses)
+        self._gap_note = gap_defaults(self._signal, wanted, analyses)
         self._session = Session(self._signal, analyses, wanted, sel)
         self._changed: set[str] = set()
-        self._pins: list[Pin] = []
         self._last_update = math.nan
         self._slow = False
         self._expected = 0.0
-        self._busy_text: Status | None = None
 
         # panels
         self._strip = DataStrip(self._signal)
         self._strip.on_brush = self._brushed
         self._hosts = {name: slot.analysis.make_view() for name, slot in self._session.slots.items()}
         self._merit = MeritPanel()
-        self._board = PinBoard(self._pin_from_ui, self._remove_from_ui, self._clear_from_ui)
-        self._status = W.HTML()
-        self._status.add_class("sb-status")
-        self._progress_bar = W.FloatProgress(value=0.0, min=0.0, max=1.0, layout=W.Layout(width="240px"))
-        self._progress_bar.add_class("sb-progress-bar")
-        self._progress_text = W.HTML()
-        self._progress_text.add_class("sb-progress-text")
-        self._cancel_button = W.Button(description="Cancel", icon="stop", tooltip="Stop this computation; the "
-                                       "last good estimate stays on screen.", layout=W.Layout(width="100px"))
-        self._cancel_button.add_class("sb-cancel")
-        self._cancel_button.on_click(lambda _: self.cancel())
-        self._progress = gapped(W.HBox([self._progress_bar, self._progress_text, self._cancel_button],
-                                       layout=W.Layout(align_items="center", display="none")), "small")
-        self._progress.add_class("sb-progress")
+        self._pins = Pins(self._session, lambda: self._draw(data=False), self._show_status)
+        self._statusline = StatusLine(self.cancel)
         self._scheduler = Scheduler(lambda *a: self._run(*a))
         for host in self._hosts.values():
             for option in host.controls().values():
@@ -233,9 +212,10 @@ class Workbench(W.VBox):
 
         views = gapped(W.HBox([h.widget for h in self._hosts.values()],
                               layout=W.Layout(width="100%", flex_flow="row wrap")), "medium")
-        main = gapped(W.VBox([gapped(self._binding.box, "wide"), views, self._progress, self._status,
+        main = gapped(W.VBox([gapped(self._binding.box, "wide"), views,
+                              self._statusline.progress, self._statusline.line,
                               section("Figures of merit"), self._merit.widget,
-                              section("Pins"), self._board.widget,
+                              section("Pins"), self._pins.board.widget,
                               section("Picture"), _export_control(self)],
                              layout=W.Layout(width="100%")), "small")
         children = [style_sheet(), self._strip.widget, main]
@@ -255,37 +235,6 @@ class Workbench(W.VBox):
             raise SettingsError(f"channel must be a channel name or index; got {channel!r}. "
                                 f"The channels are {names}.", field="channel")
         return self._signal.channel(channel).channels[0]
-
-    def _gap_defaults(self, wanted: dict[str, Any], analyses: list[Analysis]) -> str | None:
-        """Estimators not given in code take the gap policy the data need (NaN-filled gaps)."""
-        import numpy as np
-
-        try:
-            data = self._signal.data
-            has_gaps = bool(np.issubdtype(data.dtype, np.floating) and np.isnan(data).any())
-        except Exception:  # an unusual container: keep the defaults
-            return None
-        if not has_gaps:
-            return None
-        changed = []
-        for a in analyses:
-            if a.name in wanted:
-                continue
-            est = a.default_estimator()
-            spec = type(est).params().get("gaps")
-            if spec is None:
-                continue
-            for policy in ("skip", "pairs", "present"):
-                try:
-                    wanted[a.name] = est.replace(gaps=policy)
-                    changed.append(f"{type(est).__name__}(gaps={policy!r})")
-                    break
-                except SpecbenchError:
-                    continue
-        if not changed:
-            return None
-        return ("The data has gaps (NaN samples, e.g. from sb.load(..., on_gap='fill')); the workbench "
-                "opened with " + ", ".join(changed) + ", which leave them out.")
 
     def _freeze_panel(self):
         try:
@@ -407,8 +356,7 @@ class Workbench(W.VBox):
     def _request(self) -> None:
         self._scheduler.request()
         if self._scheduler.pending() and self._slow:
-            self._status.value = "<span class='sb-muted'>computing…</span>"
-            self._set_status_class("busy")
+            self._statusline.computing()
 
     def flush(self) -> None:
         """Compute a deferred update now (for code that drives controls inside a kernel)."""
@@ -458,7 +406,7 @@ class Workbench(W.VBox):
     def _finished(self, job, rerun: bool, changed: set[str]) -> None:
         """A background job ended (on the event-loop thread)."""
         try:
-            self._hide_busy()
+            self._statusline.hide_busy()
             if job.cancelled:
                 self._changed |= changed
                 if rerun:
@@ -502,24 +450,7 @@ class Workbench(W.VBox):
 
     def _show_busy(self, job, fraction: float) -> None:
         names = ", ".join(slot.analysis.title or slot.name for slot, _ in job.todo)
-        left = self._scheduler.remaining(self._expected)
-        from ._merit import duration
-
-        text = f"Computing {names}: {100 * fraction:.0f} %"
-        if left is not None:
-            text += f", about {duration(left)} left"
-        if fraction == 0.0:
-            text += f" (expected {duration(self._expected)})"
-        self._progress_bar.value = min(max(fraction, 0.0), 1.0)
-        self._progress_text.value = f"<span class='sb-muted'>{html.escape(text)}</span>"
-        self._progress.layout.display = None
-        self._busy_text = busy_status(names, self._expected)
-        self._status.value = self._busy_text.html
-        self._set_status_class("busy")
-
-    def _hide_busy(self) -> None:
-        self._busy_text = None
-        self._progress.layout.display = "none"
+        self._statusline.show_busy(names, fraction, self._expected, self._scheduler.remaining(self._expected))
 
     @property
     def progress(self) -> float | None:
@@ -543,7 +474,7 @@ class Workbench(W.VBox):
                     for target, items in slot.analysis.overlays(slot.shown).items():
                         overlays.setdefault(target, []).extend(items)
             for name, host in self._hosts.items():
-                pinned = [(p.shown.get(name), p.color, p.line_style) for p in self._pins]
+                pinned = [(p.shown.get(name), p.color, p.line_style) for p in self._pins.items]
                 if hasattr(host, "set_overlays"):
                     host.set_overlays(overlays.get(name, []))
                 host.show(shown.get(name), pinned)
@@ -564,106 +495,26 @@ class Workbench(W.VBox):
                 self._panel.mark_stale()
 
     # ------------------------------------------------------------------ status
-    def _set_status_class(self, kind: str) -> None:
-        for k in ("error", "note", "busy"):
-            self._status.remove_class(f"sb-status-{k}")
-        if kind != "ok":
-            self._status.add_class(f"sb-status-{kind}")
-
-    def _status_now(self) -> Status:
-        return status_of(self._session, self._last_update)
-
     def _show_status(self) -> None:
         self._binding.mark(self._data_controls())
-        st = self._status_now()
-        if self._busy_text is not None and not self._session.errors:
-            st = self._busy_text
-        self._status.value = st.html
-        self._set_status_class(st.kind)
+        self._statusline.show(status_of(self._session, self._last_update), bool(self._session.errors))
 
     # ------------------------------------------------------------------ pins
-    def _free_style(self) -> tuple[str, str]:
-        used = {(p.color, p.line_style) for p in self._pins}
-        return next(s for s in PIN_STYLES if s not in used)
-
-    def _relabel(self) -> None:
-        auto = auto_labels([p.settings for p in self._pins], [p.main_estimator for p in self._pins])
-        for p, label in zip(self._pins, auto):
-            if not p.user_label:
-                p.label = label
-
-    def _redraw_pins(self) -> None:
-        self._board.show(self._pins)
-        self._draw(data=False)
-
     def pin(self, label: str | None = None) -> Pin:
         """Pin the estimates on screen (every view); ``label`` defaults to what sets it apart.
 
         Raises :class:`~specbench.SpecbenchError` (and says so in the status line) when
         eight pins are already on screen or there is no estimate to pin.
         """
-        s = self._session
-        if s.main.result is None:
-            msg = ("There is no estimate on screen to pin yet: no setting has given one. Fix the setting "
-                   "the status line names first.")
-            s.errors["nopin"] = Problem(msg)
-            self._show_status()
-            raise SpecbenchError(msg)
-        if len(self._pins) >= MAX_PINS:
-            msg = (f"{MAX_PINS} pins are on screen, the most the views can tell apart. Remove one "
-                   "(× in the pin table) or all of them before pinning another.")
-            s.errors["pins"] = Problem(msg)
-            self._show_status()
-            raise SpecbenchError(msg)
-        s.errors.pop("pins", None)
-        color, dash = self._free_style()
-        on = [slot for slot in s.slots.values() if slot.result is not None]
-        p = Pin(
-            label=label or "", estimators={x.name: x.est for x in on}, results={x.name: x.result for x in on},
-            shown={x.name: x.shown for x in on}, channel=s.sel.channel, span=s.sel.span, fs=s.main.result.fs,
-            color=color, line_style=dash, user_label=bool(label), settings=settings_of(s),
-        )
-        self._pins.append(p)
-        self._relabel()
-        self._redraw_pins()
-        self._show_status()
-        return p
+        return self._pins.pin(label)
 
     def remove_pin(self, which: int | str | Pin) -> None:
         """Remove one pin, by position, label or the Pin itself."""
-        if isinstance(which, Pin):
-            idx = next((i for i, p in enumerate(self._pins) if p is which), None)
-        elif isinstance(which, str):
-            idx = next((i for i, p in enumerate(self._pins) if p.label == which), None)
-        else:
-            idx = int(which) if -len(self._pins) <= int(which) < len(self._pins) else None
-        if idx is None:
-            raise SpecbenchError(f"No pin {which!r}; the pins are {[p.label for p in self._pins]}.")
-        del self._pins[idx]
-        self._session.errors.pop("pins", None)
-        self._relabel()
-        self._redraw_pins()
-        self._show_status()
+        self._pins.remove(which)
 
     def clear_pins(self) -> None:
         """Remove every pin."""
         self._pins.clear()
-        self._session.errors.pop("pins", None)
-        self._redraw_pins()
-        self._show_status()
-
-    @_guarded
-    def _pin_from_ui(self) -> None:
-        with contextlib.suppress(SpecbenchError):  # the message is in the status line
-            self.pin()
-
-    @_guarded
-    def _remove_from_ui(self, i: int) -> None:
-        self.remove_pin(i)
-
-    @_guarded
-    def _clear_from_ui(self) -> None:
-        self.clear_pins()
 
     # ------------------------------------------------------------------ public surface
     @property
@@ -791,14 +642,13 @@ class Workbench(W.VBox):
 
     @property
     def pins(self) -> tuple[Pin, ...]:
-        return tuple(self._pins)
+        return tuple(self._pins.items)
 
     @property
     def status(self) -> str:
         """The status line as plain text: the last update, a note, or why a setting failed."""
-        if self._busy_text is not None and not self._session.errors:
-            return self._busy_text.text
-        return self._status_now().text
+        return self._statusline.current(status_of(self._session, self._last_update),
+                                        bool(self._session.errors)).text
 
     @property
     def controls(self) -> types.MappingProxyType:
@@ -897,4 +747,4 @@ class Workbench(W.VBox):
         sel = s.sel or s.next_sel
         ests = " · ".join(repr(x.est) for x in s.slots.values())
         return (f"<Workbench {ests} on channel {sel.channel!r}"
-                f"{'' if sel.span is None else f', span {sel.span}'}; {len(self._pins)} pin(s)>")
+                f"{'' if sel.span is None else f', span {sel.span}'}; {len(self._pins.items)} pin(s)>")

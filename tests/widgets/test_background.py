@@ -38,17 +38,17 @@ def test_cancel_keeps_the_last_good_result(long_sig):
     bench = sb.Workbench(long_sig, sb.Multitaper(segment_length=4096))
     good, good_est = bench.spectrum, bench.estimator
     seen = []
-    bench._progress_bar.observe(lambda ch: seen.append(ch["new"]), names="value")
+    bench._statusline.bar.observe(lambda ch: seen.append(ch["new"]), names="value")
 
     async def main():
         bench.controls["segment_length"].value = None  # taper the whole record: long
         await _wait(lambda: bench.busy)
-        assert "expected" in bench._progress_text.value and "Computing" in bench._progress_text.value
-        assert bench._progress.layout.display is None  # the bar and the Cancel button show
+        assert "expected" in bench._statusline.text.value and "Computing" in bench._statusline.text.value
+        assert bench._statusline.progress.layout.display is None  # the bar and the Cancel button show
         assert "computing" in bench.status
         await _wait(lambda: len(seen) >= 2)  # the engine's block counter moves the bar
         assert bench.spectrum is good  # nothing committed while it runs
-        bench._cancel_button.click()
+        bench._statusline.cancel_button.click()
         await _wait(lambda: not bench.busy)
         await asyncio.sleep(0.05)
 
@@ -58,7 +58,7 @@ def test_cancel_keeps_the_last_good_result(long_sig):
     assert bench.spectrum is good and bench.estimator == good_est
     assert "cancelled" in bench.status and "last good estimate stays on screen" in bench.status
     assert all(0.0 <= v <= 1.0 for v in seen) and seen == sorted(seen)
-    assert bench._progress.layout.display == "none"
+    assert bench._statusline.progress.layout.display == "none"
 
 
 def test_a_newer_change_supersedes_the_running_computation(long_sig):

@@ -102,7 +102,7 @@ def test_status_before_any_good_estimate_and_pin_without_one():
     assert bench.spectrum is None and bench.correlation is None
     assert "last good estimate stays" not in bench.status
     assert "Nothing is on screen yet" in bench.status
-    bench._board.pin_button.click()  # the button says so, without raising
+    bench._pins.board.pin_button.click()  # the button says so, without raising
     assert "no estimate on screen to pin" in bench.status
 
 

@@ -476,12 +476,12 @@ class TestPins:
             assert pin_marks[1].colors == [second.color] and pin_marks[1].line_style == second.line_style
         np.testing.assert_array_equal(bench._psd.pin_lines[0].y,
                                       spectrum_trace(first.spectrum.channel(0), "density", True).y)
-        assert len(bench._board.table.children) == 2
+        assert len(bench._pins.board.table.children) == 2
         bench.remove_pin(0)
         assert [p.label for p in bench.pins] == ["Welch window='hamming', segment_length=4096".replace(
             "window='hamming'", "window=hamming")]
         assert sum(m in bench._psd.pin_lines for m in bench._psd.figure.marks) == 1
-        bench._board.table.children[0].children[1].click()  # its remove button
+        bench._pins.board.table.children[0].children[1].click()  # its remove button
         assert bench.pins == ()
         assert not any(m in bench._psd.pin_lines for m in bench._psd.figure.marks)
 
@@ -500,9 +500,9 @@ class TestPins:
         with pytest.raises(sb.SpecbenchError, match="8 pins"):
             bench.pin()
         assert "8 pins are on screen" in bench.status
-        bench._board.pin_button.click()  # the button says so too, without raising
+        bench._pins.board.pin_button.click()  # the button says so too, without raising
         assert len(bench.pins) == 8 and "8 pins" in bench.status
-        bench._board.clear_button.click()
+        bench._pins.board.clear_button.click()
         assert bench.pins == () and "8 pins" not in bench.status
 
     def test_removed_styles_are_reused(self, bench):
