@@ -484,6 +484,9 @@ def _segment_block(span: np.ndarray, count: int, local: np.ndarray | None, w: np
     buf_dtype = np.dtype(np.complex64 if work is np.float32 else np.complex128) if cplx else np.dtype(work)
     view = sliding_window_view(span, nperseg, axis=-1)[:, ::step, :]
     blk = view[:, :count, :] if local is None else view[:, local, :]
+    if not cplx and not keep_each and count > 1 and work is np.float64:  # float32: measured slower packed
+        return _packed_block(blk, mu_of(span, blk, local, count, step, nperseg) if detrend == "constant" else None,
+                             count, w, nfft, detrend, twosided, per_block, work)
     seg = _scratch("segments", (c, per_block, nperseg), buf_dtype)[:, :count]
     if detrend == "constant":
         mu = blk.mean(axis=-1, keepdims=True) if local is not None else _block_means(span, 0, count, step, nperseg)
@@ -507,6 +510,64 @@ def _segment_block(span: np.ndarray, count: int, local: np.ndarray | None, w: np
     flat = spec.view(spec.real.dtype)
     sq = np.einsum("csj,csj->cj", flat, flat)
     return np.add(sq[:, 0::2], sq[:, 1::2], dtype=np.float64)
+
+
+def mu_of(span: np.ndarray, blk: np.ndarray, local: np.ndarray | None, count: int, step: int,
+          nperseg: int) -> np.ndarray:
+    """Means of a block's segments, shape (C, count, 1)."""
+    return blk.mean(axis=-1, keepdims=True) if local is not None else _block_means(span, 0, count, step, nperseg)
+
+
+def _interleaved(w: np.ndarray) -> np.ndarray:
+    """``w`` repeated for the real and imaginary parts of a complex buffer (cached by identity)."""
+    store = getattr(_LOCAL, "interleaved", None)
+    if store is None or store[0] is not w:
+        store = _LOCAL.interleaved = (w, np.repeat(w, 2))
+    return store[1]
+
+
+def _packed_block(blk: np.ndarray, mu: np.ndarray | None, count: int, w: np.ndarray, nfft: int, detrend: str,
+                  twosided: bool, per_block: int, work: Any) -> np.ndarray:
+    """Sum over a block of real segments of ``|FFT(detrend(segment) * w)|**2``, two per FFT.
+
+    Segments ``2i`` and ``2i + 1`` go into the real and imaginary parts of one complex
+    segment ``z``; with ``Z = FFT(z)``, the two periodograms add up to
+    ``(|Z_k|**2 + |Z_{-k}|**2) / 2`` (``Z_k = A_k + i B_k`` with ``A``, ``B`` Hermitian),
+    so one complex transform of length nfft replaces two real ones (about 20 % less
+    FFT time here) and the power pass reads the same number of values.  An odd last
+    segment has a zero imaginary part.  Equal to the unpacked sum to rounding (a few
+    units in the last place).  float64 only: with float32 data the packed block was
+    measured 10 % slower than two real transforms.
+    """
+    c, _, nperseg = blk.shape
+    pairs = (count + 1) // 2
+    cdt = np.dtype(np.complex64 if work is np.float32 else np.complex128)
+    z = _scratch("packed", (c, (per_block + 1) // 2, nperseg), cdt)[:, :pairs]
+    re, im = z.real, z.imag
+    even, odd = blk[:, 0::2], blk[:, 1::2]
+    if detrend == "constant":
+        np.subtract(even, mu[:, 0::2].astype(work, copy=False), out=re, casting="unsafe")
+        np.subtract(odd, mu[:, 1::2].astype(work, copy=False), out=im[:, : odd.shape[1]], casting="unsafe")
+    elif detrend == "linear":
+        lin = _LinearDetrend.cached(nperseg, np.dtype(work))
+        lin(even, re)
+        lin(odd, im[:, : odd.shape[1]])
+    else:
+        np.copyto(re, even, casting="unsafe")
+        np.copyto(im[:, : odd.shape[1]], odd, casting="unsafe")
+    if count % 2:
+        im[:, -1] = 0.0
+    flat = z.view(work)
+    np.multiply(flat, _interleaved(w), out=flat)
+    spec = scipy.fft.fft(z, n=nfft, axis=-1, workers=1, overwrite_x=nfft == nperseg)
+    fl = spec.view(work)
+    sq = np.einsum("csj,csj->cj", fl, fl)
+    s = np.add(sq[:, 0::2], sq[:, 1::2], dtype=np.float64)  # sum over pairs of |Z_k|^2, k = 0..nfft-1
+    nfreq = nfft if twosided else nfft // 2 + 1
+    mirror = s[:, (-np.arange(nfreq)) % nfft]
+    out = s[:, :nfreq] + mirror
+    out *= 0.5
+    return out
 
 
 def segment_power(
