@@ -34,6 +34,7 @@ from __future__ import annotations
 
 import math
 import numbers
+import threading
 import weakref
 from dataclasses import replace
 from typing import Any
@@ -90,9 +91,28 @@ def _layout(spec: Any) -> dict:
     edge_mask = np.zeros(nf, dtype=bool)
     edge_mask[edges] = True
     out = dict(freq=freq, df=df, lo=lo, hi=hi, mult=mult, nfft=nfft, real=real, edge=edge_mask,
-               signed=signed, coverage=(float(lo[0]), float(hi[-1])))
+               signed=signed, coverage=(float(lo[0]), float(hi[-1])), full=(hi - lo) * mult)
     _LAYOUTS[spec] = out
     return out
+
+
+_WORK = threading.local()
+
+
+def _work(key: str, shape: tuple) -> np.ndarray:
+    """A reused float64 work array of ``shape`` (per thread): large fresh temporaries cost page
+    faults on every call (see PERFORMANCE.md, "memory is time"), a kept buffer does not."""
+    pool = getattr(_WORK, "pool", None)
+    if pool is None:
+        pool = _WORK.pool = {}
+    n = int(np.prod(shape))
+    buf = pool.get(key)
+    if buf is None or buf.size < n:
+        buf = pool[key] = np.empty(max(n, 1))
+    if len(pool) and sum(b.size for b in pool.values()) > 64 * 2**20:  # at most 512 MB kept
+        pool.clear()
+        buf = pool[key] = np.empty(max(n, 1))
+    return buf[:n].reshape(shape)
 
 
 def _density(spec: Any) -> np.ndarray:
@@ -225,6 +245,127 @@ def band_core(spec: Any, f1: float, f2: float, *, dens: np.ndarray | None = None
     return p, nu, int(np.count_nonzero(c))
 
 
+def band_core_many(spec: Any, f1s: np.ndarray, f2s: np.ndarray, *, dens: np.ndarray | None = None) -> tuple:
+    """``(power, dof)`` of many bands at once, shape ``(..., nbands)``: :func:`band_core` for each,
+    with the per-spectrum work (layout, density, per-bin factors, structure) done once and the
+    band sums of the weights and of each lag's products gathered without a Python call per bin.
+
+    Each band's bins are the run ``[i0, i1)``; interior bins carry their whole cell, the two end
+    bins the fraction inside the band.  The lag products ``sum_k a_k a_{k+d}`` are taken over the
+    run with whole-cell weights and then corrected at the two ends (exact, no cumulative-sum
+    cancellation), and the mirror term is added for the bands within reach of DC or Nyquist.
+    """
+    lay = _layout(spec)
+    dens = _density(spec) if dens is None else dens
+    f1s = np.asarray(f1s, dtype=np.float64)
+    f2s = np.asarray(f2s, dtype=np.float64)
+    lo, hi, mult = lay["lo"], lay["hi"], lay["mult"]
+    nf = lo.size
+    i0 = np.minimum(np.searchsorted(hi, f1s, side="right"), nf - 1)
+    i1 = np.maximum(np.searchsorted(lo, f2s, side="left"), i0 + 1)
+    full = lay["full"]
+    ca = np.clip(np.minimum(hi[i0], f2s) - np.maximum(lo[i0], f1s), 0.0, None) * mult[i0]
+    last = i1 - 1
+    cb = np.clip(np.minimum(hi[last], f2s) - np.maximum(lo[last], f1s), 0.0, None) * mult[last]
+    with np.errstate(divide="ignore", invalid="ignore"):
+        alpha = np.where(full[i0] > 0, ca / full[i0], 0.0)
+        beta = np.where(full[last] > 0, cb / full[last], 0.0)
+    single = i1 - i0 == 1
+    # work on the covered run only, padded with one zero so that reduceat can end at its end
+    u0, u1 = int(i0.min()), int(i1.max())
+    i0, i1, last = i0 - u0, i1 - u0, last - u0
+    nf = u1 - u0
+    dens_u = dens[..., u0:u1]
+    if not np.all(np.isfinite(dens_u)):
+        return None  # the caller falls back to band_core, which names the bad bin
+    shape = dens.shape[:-1] + (nf + 1,)
+    dof = np.asarray(spec.dof, dtype=np.float64)
+    edge = lay["edge"][u0:u1]
+    constant = (dof.ndim == 0 or (dof.size > 0 and float(dof.min()) == float(dof.max()))) and dof.size > 0
+    wsp = _work("ws", shape)
+    np.multiply(full[u0:u1], dens_u, out=wsp[..., :nf])
+    wsp[..., nf] = 0.0  # whole-cell weighted density
+    starts = np.empty(2 * i0.size, dtype=np.int64)
+    starts[0::2], starts[1::2] = i0, i1
+    # band sums over [i0, i1): reduceat pairs (the odd results are discarded)
+    p_full = np.add.reduceat(wsp, starts, axis=-1)[..., 0::2]
+    a0 = wsp[..., i0]
+    a1 = wsp[..., last]
+    p = np.where(single, ca * dens_u[..., i0], p_full + (alpha - 1) * a0 + np.where(single, 0.0, (beta - 1) * a1))
+    if constant:
+        nu0 = float(dof.ravel()[0])
+        g_in = 2.0 / nu0 if nu0 > 0 else np.inf
+        b = np.multiply(wsp, math.sqrt(g_in), out=_work("b", shape))
+        if edge.any():  # DC / Nyquist: 1 / nu instead of 2 / nu
+            b[..., np.flatnonzero(edge)] *= math.sqrt(0.5)
+        # the mean of g over each band: 2/nu, and 1/nu on an edge bin
+        ne = np.add.reduceat(np.concatenate([edge.astype(np.float64), [0.0]]), starts)[0::2]
+        gbar = (g_in * (m_ := (i1 - i0)) - 0.5 * g_in * ne) / m_
+        gbar = np.where(np.isfinite(gbar), gbar, 0.0)
+    else:
+        g = _work("g", shape)
+        g[..., nf] = 0.0
+        with np.errstate(divide="ignore"):
+            np.divide(np.where(edge, 1.0, 2.0), np.broadcast_to(dof, dens.shape)[..., u0:u1], out=g[..., :nf])
+        b = np.sqrt(g, out=_work("b", shape))
+        np.multiply(b, wsp, out=b)
+        fin = np.isfinite(g)
+        gcnt = np.add.reduceat(fin.astype(np.float64), starts, axis=-1)[..., 0::2]
+        np.copyto(g, 0.0, where=~fin)
+        gsum = np.add.reduceat(g, starts, axis=-1)[..., 0::2]
+        lead = tuple(range(gsum.ndim - 1))  # one mean over the channels too, as band_core takes it
+        gsum, gcnt = gsum.sum(axis=lead), gcnt.sum(axis=lead)
+        with np.errstate(divide="ignore", invalid="ignore"):
+            gbar = np.where(gcnt > 0, gsum / gcnt, 0.0)
+    r = structure_of(spec).r
+    L = r.size - 1
+    m = i1 - i0
+    b0, b1 = b[..., i0], b[..., last]
+    # sum_k b_k b_{k+d} over each run with whole-cell weights: one fused product-sum per band and
+    # lag (no temporaries over the axis), then the exact corrections at the two end bins
+    f = np.zeros(p.shape[:-1] + (i0.size, L + 1))
+    for j, (a_, z_) in enumerate(zip(i0.tolist(), i1.tolist())):
+        bs = b[..., a_:z_]
+        n_ = z_ - a_
+        # einsum, not np.dot: BLAS calls on short slices are slow here when the cores are busy
+        for d in range(min(L + 1, n_)):
+            f[..., j, d] = np.einsum("...k,...k->...", bs[..., : n_ - d], bs[..., d:])
+    var = np.zeros(p.shape)
+    for d in range(0, L + 1):
+        has = m > d
+        if not has.any():
+            break
+        f_d = f[..., d]
+        if d == 0:
+            qd = np.where(single, (alpha * b0) ** 2, f_d + (alpha**2 - 1) * b0**2 + (beta**2 - 1) * b1**2)
+        else:
+            bi0d = b[..., np.minimum(i0 + d, nf - 1)]
+            bi1d = b[..., np.maximum(last - d, 0)]
+            qd = (f_d + (alpha - 1) * b0 * bi0d + (beta - 1) * bi1d * b1
+                  + np.where(m - 1 == d, (alpha - 1) * (beta - 1) * b0 * b1, 0.0))
+        w = (1.0 if d == 0 else 2.0) * r[d] / (1 + gbar * r[d])
+        var = var + np.where(has, w * qd, 0.0)
+    if lay["real"]:
+        s_all = lay["signed"]
+        g0, g1 = i0 + u0, last + u0  # back to the spectrum's bin numbers
+        near = (s_all[g0] <= L) | (s_all[g1] >= lay["nfft"] // 2 - L) if s_all[0] >= 0 else np.ones(i0.size, bool)
+        dof_b = np.broadcast_to(np.asarray(spec.dof, dtype=np.float64), dens.shape)
+        for j in np.flatnonzero(near):
+            sl = slice(int(g0[j]), int(g1[j]) + 1)
+            c = full[sl].copy()
+            c[0] = ca[j]
+            if not single[j]:
+                c[-1] = cb[j]
+            with np.errstate(divide="ignore"):
+                gj = np.where(lay["edge"][sl], 1.0, 2.0) / dof_b[..., sl]
+            a = c * dens[..., sl] * np.sqrt(gj)
+            rr = r / (1 + float(gbar[j]) * r)
+            var[..., j] = var[..., j] + _mirror(a, rr, lay, sl)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        nu = np.where(var > 0, np.maximum(2 * p * p / var - 2, 1.0), np.inf)
+    return p, nu
+
+
 # ---------------------------------------------------------------- public measurements
 def band_power(spec: Any, f1: float, f2: float) -> Measurement:
     """Power of the density over ``[f1, f2]`` Hz with a confidence interval (see the module notes).
@@ -287,16 +428,43 @@ def noise_floor(spec: Any, f1: float | None = None, f2: float | None = None) -> 
     f1 = a if f1 is None else f1
     f2 = b if f2 is None else f2
     f1, f2 = _check_band(spec, f1, f2, "noise_floor")
-    sel = np.nonzero((freq >= f1) & (freq <= f2) & ~lay["edge"])[0]
-    m = sel.size
+    # the bins whose centre lies in the band: one run, less the DC / Nyquist bins at its ends
+    i0 = int(np.searchsorted(freq, f1, side="left"))
+    i1 = int(np.searchsorted(freq, f2, side="right"))
+    edge = lay["edge"]
+    while i0 < i1 and edge[i0]:
+        i0 += 1
+    while i1 > i0 and edge[i1 - 1]:
+        i1 -= 1
+    inner_edge = bool(edge[i0:i1].any())  # a two-sided spectrum's zero bin inside the band
+    sel = np.nonzero(~edge[i0:i1])[0] + i0 if inner_edge else None
+    m = (i1 - i0) if sel is None else sel.size
     if m < 8:
         raise MeasurementError(
             f"noise_floor: the band {f1:g}..{f2:g} Hz holds {m} bin(s); a robust floor needs at least 8. "
             f"Widen the band to at least {8 * lay['df']:g} Hz."
         )
-    dens = _density(spec)[..., sel[0]:sel[-1] + 1]
-    dof = np.broadcast_to(np.asarray(spec.dof, dtype=np.float64), _density(spec).shape)[..., sel]
-    nu = float(np.median(dof))
+    full_dens = _density(spec)
+    dof_all = np.asarray(spec.dof, dtype=np.float64)
+    if sel is None:
+        dens = _work("floor", full_dens.shape[:-1] + (m,))
+        np.copyto(dens, full_dens[..., i0:i1])
+        if dof_all.ndim == 0:
+            nu = float(dof_all)
+        else:
+            dof = _work("floor_dof", full_dens.shape[:-1] + (m,))
+            np.copyto(dof, np.broadcast_to(dof_all, full_dens.shape)[..., i0:i1])
+            lo_d, hi_d = float(dof.min()), float(dof.max())
+            if lo_d == hi_d:
+                nu = lo_d
+            else:
+                flat = dof.reshape(-1)
+                k = flat.size
+                flat.partition([(k - 1) // 2, k // 2])
+                nu = 0.5 * float(flat[(k - 1) // 2] + flat[k // 2])
+    else:
+        dens = full_dens[..., sel]
+        nu = float(np.median(np.broadcast_to(dof_all, full_dens.shape)[..., sel]))
     bias = median_bias(nu)
     kappa = max(1.0, min(structure_of(spec).kappa, float(m)))
     z = stats.norm.ppf(0.5 + spec.confidence / 2)
@@ -305,7 +473,8 @@ def noise_floor(spec: Any, f1: float | None = None, f2: float | None = None) -> 
     r_hi = min(m, int(math.ceil((m + 1) / 2 + half)))
     mid = [(m - 1) // 2, m // 2]
     kth = sorted({r_lo - 1, r_hi - 1, *mid})
-    part = np.partition(dens, kth, axis=-1)
+    dens.partition(kth, axis=-1)  # a private copy (work buffer or fancy-indexed): in place
+    part = dens
     med = 0.5 * (part[..., mid[0]] + part[..., mid[1]])
     value = med / bias
     lower = part[..., r_lo - 1] / bias
@@ -395,13 +564,11 @@ def octave_bands(spec: Any, fraction: int = 3, f_min: float | None = None, f_max
     fm, lo_e, hi_e = iec_bands(b, x)
     partial = hi_e > b_cov * (1 + 1e-12)
     dens = _density(spec)
-    vals, nus = [], []
-    for lo, hi in zip(lo_e, hi_e):
-        p, nu, _ = band_core(spec, float(lo), float(min(hi, b_cov)), dens=dens)
-        vals.append(p)
-        nus.append(nu)
-    value = np.stack(vals, axis=-1)
-    nu = np.stack(nus, axis=-1)
+    many = band_core_many(spec, lo_e, np.minimum(hi_e, b_cov), dens=dens)
+    if many is None:  # a non-finite bin: band_core names it
+        for lo, hi in zip(lo_e, hi_e):
+            band_core(spec, float(lo), float(min(hi, b_cov)), dens=dens)
+    value, nu = many
     lower, upper = _chi2_interval(value, nu, spec.confidence)
     zero = 0.0 * value[..., 0]
     tiny = lay["df"] * 1e-9

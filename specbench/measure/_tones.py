@@ -60,16 +60,9 @@ RULE = ("local maximum above the block-median floor (chi-square median bias corr
         "of the estimator's own tone response; standard errors by the delta method")
 
 
-def _interior_dof(spec: Any, lay: dict) -> np.ndarray:
-    nu = np.broadcast_to(np.asarray(spec.dof, dtype=np.float64), spec.freq.shape).copy()
-    nu[lay["edge"]] *= 2
-    return nu
-
-
-def local_floor(spec: Any, dens: np.ndarray | None = None, block: int | None = None) -> np.ndarray:
-    """Per-bin local noise floor: bias-corrected block medians interpolated in dB."""
+def _floor_model(spec: Any, dens: np.ndarray, block: int | None = None) -> tuple[np.ndarray, np.ndarray]:
+    """Block centres and the log of the bias-corrected block medians (the local floor's knots)."""
     lay = _layout(spec)
-    dens = _density(spec) if dens is None else dens
     st = structure_of(spec)
     nf = dens.shape[-1]
     h = st.half_width()
@@ -81,14 +74,33 @@ def local_floor(spec: Any, dens: np.ndarray | None = None, block: int | None = N
     med = np.partition(blocks, b // 2, axis=1)[:, b // 2]
     if used < nf:  # the tail joins the last block's estimate
         med[-1] = np.median(dens[(nb - 1) * b:])
-    nu = _interior_dof(spec, lay)
-    nub = nu[np.arange(nb) * b + b // 2]  # the dof vary slowly: the block centre's
+    centre_bins = np.arange(nb) * b + b // 2
+    nub = _dof_at(spec, lay, centre_bins)  # the dof vary slowly: the block centre's
     uniq, inv = np.unique(nub, return_inverse=True)
     med = med / (stats.chi2.ppf(0.5, uniq) / uniq)[inv]
     centres = np.arange(nb) * b + (b - 1) / 2
     with np.errstate(divide="ignore"):
         lg = np.log(np.maximum(med, np.finfo(float).tiny))
-    return np.exp(np.interp(np.arange(nf), centres, lg))
+    return centres, lg
+
+
+def _floor_at(model: tuple[np.ndarray, np.ndarray], idx: np.ndarray) -> np.ndarray:
+    centres, lg = model
+    return np.exp(np.interp(idx, centres, lg))
+
+
+def local_floor(spec: Any, dens: np.ndarray | None = None, block: int | None = None) -> np.ndarray:
+    """Per-bin local noise floor: bias-corrected block medians interpolated in dB."""
+    dens = _density(spec) if dens is None else dens
+    return _floor_at(_floor_model(spec, dens, block), np.arange(dens.shape[-1]))
+
+
+def _dof_at(spec: Any, lay: dict, idx: np.ndarray) -> np.ndarray:
+    """The interior dof (edges doubled) at bins ``idx``, without broadcasting the whole axis."""
+    dof = np.asarray(spec.dof, dtype=np.float64)
+    idx = np.asarray(idx)
+    nu = np.full(idx.shape, float(dof)) if dof.ndim == 0 else np.broadcast_to(dof, lay["freq"].shape)[idx]
+    return np.where(lay["edge"][idx], 2 * nu, nu)
 
 
 def _table(st: Structure, h: int) -> np.ndarray:
@@ -207,18 +219,28 @@ def _stderr(st: Structure, spec: Any, y: np.ndarray, h: int, delta: float, t0: f
     return math.sqrt(max(var_d, 0.0)), math.sqrt(max(var_t, 0.0))
 
 
-def _threshold(nu: np.ndarray, p: float) -> np.ndarray:
-    """``chi2.isf(p, nu) / nu`` per bin; many distinct dof (adaptive multitaper) are interpolated
-    on a log grid of 512 dof values (smooth in nu; relative error below 1e-4)."""
-    lo, hi = float(nu.min()), float(nu.max())
-    if lo == hi:
-        return np.full(nu.shape, stats.chi2.isf(p, lo) / lo)
-    if np.unique(nu[:: max(1, nu.size // 4096)]).size < 16 and np.unique(nu).size < 256:
-        uniq, inv = np.unique(nu, return_inverse=True)
-        return (stats.chi2.isf(p, uniq) / uniq)[inv]
-    grid = np.geomspace(lo, hi, 512) if hi > lo else np.array([lo])
+def _threshold_table(nu_lo: float, nu_hi: float, uniq: np.ndarray | None, p: float):
+    """``nu -> chi2.isf(p, nu) / nu`` as a function of an array, and its smallest value over the
+    dof range.  Many distinct dof (adaptive multitaper) are interpolated on a log grid of 512 dof
+    values (smooth in nu; relative error below 1e-4)."""
+    if nu_lo == nu_hi:
+        v = float(stats.chi2.isf(p, nu_lo) / nu_lo)
+        return (lambda nu: np.full(np.shape(nu), v)), v
+    if uniq is not None:
+        vals = stats.chi2.isf(p, uniq) / uniq
+        return (lambda nu: vals[np.searchsorted(uniq, nu)]), float(vals.min())
+    grid = np.geomspace(nu_lo, nu_hi, 512)
     vals = stats.chi2.isf(p, grid) / grid
-    return np.interp(np.log(nu), np.log(grid), vals)
+    return (lambda nu: np.interp(np.log(nu), np.log(grid), vals)), float(vals.min())
+
+
+def _threshold(nu: np.ndarray, p: float) -> np.ndarray:
+    """``chi2.isf(p, nu) / nu`` per bin (see :func:`_threshold_table`)."""
+    lo, hi = float(nu.min()), float(nu.max())
+    uniq = None
+    if lo != hi and np.unique(nu[:: max(1, nu.size // 4096)]).size < 16 and np.unique(nu).size < 256:
+        uniq = np.unique(nu)
+    return _threshold_table(lo, hi, uniq, p)[0](nu)
 
 
 def _tone_gain(st: Structure, spec: Any) -> float:
@@ -267,26 +289,64 @@ def tones(spec: Any, max_count: int = 10, *, false_alarm: float = 0.01, f1: floa
         from ._bands import _check_band
 
         lo_f, hi_f = _check_band(spec, lo_f, hi_f, "tones")
-    floor = local_floor(spec, dens)
-    nu = _interior_dof(spec, lay)
-    search = np.nonzero((freq >= lo_f) & (freq <= hi_f))[0]
+    model = _floor_model(spec, dens)
+    # the searched bins are one contiguous run: slices, never index arrays over the whole axis
+    i0 = int(np.searchsorted(freq, lo_f, side="left"))
+    i1 = int(np.searchsorted(freq, hi_f, side="right"))
     lobe = st.lobe_half_width()
     # a tone within a main lobe of DC or Nyquist overlaps its mirror image and cannot be fitted
-    search = search[(search >= max(1, lobe)) & (search <= nf - 1 - max(1, lobe))]
-    m_bins = max(1, search.size)
-    fac = _threshold(nu[search], false_alarm / m_bins)
-    s = dens[search]
-    is_peak = (s >= dens[search - 1]) & (s > dens[search + 1]) & (s > fac * floor[search])
-    cand = search[is_peak]
-    thr_db = float(10 * np.log10(np.median(fac))) if fac.size else math.nan
+    i0, i1 = max(i0, max(1, lobe)), min(i1, nf - max(1, lobe))
+    m_bins = max(1, i1 - i0)
+    p_bin = false_alarm / m_bins
+    dof = np.asarray(spec.dof, dtype=np.float64)
+    if i1 <= i0:
+        nu_run = np.ones(1)
+    elif dof.ndim == 0 and not lay["edge"][i0:i1].any():
+        nu_run = np.full(1, float(dof))
+    elif lay["edge"][i0:i1].any():  # a two-sided spectrum's zero bin lies inside the run
+        nu_run = _dof_at(spec, lay, np.arange(i0, i1))
+    else:
+        nu_run = np.broadcast_to(dof, freq.shape)[i0:i1]
+    nu_lo, nu_hi = float(nu_run.min()), float(nu_run.max())
+    uniq = None
+    if nu_lo != nu_hi and np.unique(nu_run[:: max(1, nu_run.size // 4096)]).size < 16 \
+            and np.unique(nu_run).size < 256:
+        uniq = np.unique(nu_run)
+    fac_of, fac_min = _threshold_table(nu_lo, nu_hi, uniq, p_bin)
+    if i1 > i0:
+        s = dens[i0:i1]
+        peak = np.flatnonzero((s >= dens[i0 - 1:i1 - 1]) & (s > dens[i0 + 1:i1 + 1])) + i0
+        # the threshold is at least fac_min: test that first, then the bin's own dof
+        peak = peak[dens[peak] > fac_min * _floor_at(model, peak)]
+        cand = peak[dens[peak] > fac_of(_dof_at(spec, lay, peak)) * _floor_at(model, peak)]
+        # the median threshold over the searched bins: the threshold falls with nu, so it is the
+        # threshold at the median dof (the mean of the two middle ones for an even count)
+        if nu_lo == nu_hi:
+            mid_fac = fac_of(np.array([nu_lo]))
+        else:
+            mm = nu_run.size
+            mid = np.partition(nu_run, [(mm - 1) // 2, mm // 2])[[(mm - 1) // 2, mm // 2]]
+            mid_fac = fac_of(mid)
+        thr_db = float(10 * np.log10(np.mean(mid_fac)))
+    else:
+        cand = np.zeros(0, dtype=np.int64)
+        thr_db = math.nan
     unit = spec.data_unit if isinstance(spec.data_unit, str) else ""
+    args = [f"max_count={max_count}"]
+    if false_alarm != 0.01:
+        args.append(f"false_alarm={float(false_alarm)!r}")
+    if f1 is not None:
+        args.append(f"f1={float(f1)!r}")
+    if f2 is not None:
+        args.append(f"f2={float(f2)!r}")
     base = dict(threshold_db=thr_db, false_alarm=float(false_alarm), confidence=spec.confidence, rule=RULE,
-                unit=unit, code=f"spec.tones(max_count={max_count})")
+                unit=unit, code=f"spec.tones({', '.join(args)})")
     if cand.size == 0:
         return Tones(items=(), note=(f"No bin in {lo_f:g}..{hi_f:g} Hz exceeds the local floor by the detection "
                                      f"threshold ({thr_db:.1f} dB at false-alarm probability {false_alarm:g})."),
                      **base)
     order = cand[np.argsort(dens[cand])[::-1]]
+    fl = dict(zip(order[: 50 * max_count].tolist(), _floor_at(model, order[: 50 * max_count]).tolist()))
     accepted: list[int] = []
     for k in order[: 50 * max_count]:
         ok = True
@@ -295,7 +355,7 @@ def tones(spec: Any, max_count: int = 10, *, false_alarm: float = 0.01, f1: floa
             if dist <= max(h + 1, lobe):
                 ok = False
                 break
-            leak = floor[k] + 2 * (dens[a] - floor[a]) * st.envelope(np.array([float(dist)]))[0]
+            leak = fl[k] + 2 * (dens[a] - fl[a]) * st.envelope(np.array([float(dist)]))[0]
             if dens[k] < leak:
                 ok = False
                 break
@@ -312,11 +372,13 @@ def tones(spec: Any, max_count: int = 10, *, false_alarm: float = 0.01, f1: floa
     offs = np.arange(-h, h + 1)
     # centre the fit region on the lobe's centroid (flat-topped responses peak anywhere on the top)
     pos = np.clip(idx[:, None] + offs[None, :], 0, nf - 1)
-    yc = np.maximum(dens[pos] - floor[idx][:, None], 0.0)
+    yc = np.maximum(dens[pos] - _floor_at(model, idx)[:, None], 0.0)
     shift = np.rint((yc * offs).sum(axis=1) / np.maximum(yc.sum(axis=1), np.finfo(float).tiny)).astype(int)
     idx = np.clip(idx + shift, h, nf - 1 - h)
     pos = np.clip(idx[:, None] + offs[None, :], 0, nf - 1)
-    y = dens[pos] - floor[idx][:, None]
+    floor_idx = _floor_at(model, idx)
+    nu_idx = _dof_at(spec, lay, idx)
+    y = dens[pos] - floor_idx[:, None]
     deltas, ts = fit_tone(st, y, h)
     from ..estimators.spectral import Multitaper
 
@@ -325,9 +387,8 @@ def tones(spec: Any, max_count: int = 10, *, false_alarm: float = 0.01, f1: floa
     if adaptive:
         note = ("Adaptive multitaper weights reshape the spectral window around a tone, so no frequency "
                 "standard error is given (NaN); estimate with Multitaper(adaptive=False) for one.")
-    for k, yk, dlt, t0 in zip(idx, y, deltas, ts):
-        noise = float(floor[k])
-        sd_d, sd_t = _stderr(st, spec, yk, h, float(dlt), float(t0), noise, float(nu[k]))
+    for k, yk, dlt, t0, noise, nu_k in zip(idx, y, deltas, ts, floor_idx.tolist(), nu_idx.tolist()):
+        sd_d, sd_t = _stderr(st, spec, yk, h, float(dlt), float(t0), noise, nu_k)
         if adaptive:
             sd_d = math.nan
         f = float(freq[k] + dlt * df)
