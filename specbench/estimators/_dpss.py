@@ -32,6 +32,7 @@ antisymmetric ones start with a positive lobe.
 from __future__ import annotations
 
 import math
+import threading
 
 import numpy as np
 import scipy.linalg.lapack as lapack
@@ -53,10 +54,21 @@ def _half_system(n: int, nw: float, symmetric: bool):
     m = n // 2
     rows = m + 1 if (n % 2 and symmetric) else m
     t = np.arange(rows, dtype=np.float64)
-    diag = ((n - 1 - 2 * t) / 2.0) ** 2 * math.cos(2 * math.pi * nw / n)
+    # diag = ((n - 1 - 2 t) / 2)**2 cos(2 pi W) and off = t (n - t) / 2, written in place
+    # (the same operations, so the same bits, without 40 MB temporaries at 1e7 samples:
+    # fresh memory is slow to touch here)
+    diag = np.multiply(t, 2)
+    np.subtract(n - 1, diag, out=diag)
+    np.divide(diag, 2.0, out=diag)
+    np.square(diag, out=diag)
+    np.multiply(diag, math.cos(2 * math.pi * nw / n), out=diag)
     tt = t[1:]
-    off = tt * (n - tt) / 2.0  # couples rows t-1 and t
-    lower, upper = off.copy(), off
+    off = np.subtract(n, tt)
+    np.multiply(tt, off, out=off)
+    np.divide(off, 2.0, out=off)  # couples rows t-1 and t
+    del t, tt
+    upper = off
+    lower = off.copy() if (n % 2 and symmetric) else off
     weights = np.full(rows, 2.0)
     if n % 2 == 0:  # row m-1 couples to row m = +-row m-1
         diag[-1] += (m * (n - m) / 2.0) * (1.0 if symmetric else -1.0)
@@ -151,55 +163,86 @@ class HalfTapers:
         return out
 
 
+def _refine(j: int, n: int, systems: dict, base: np.ndarray, u0: np.ndarray, buffers: dict) -> np.ndarray:
+    """Taper ``j`` (its half, unit weighted norm, not yet orthogonalised): the interpolated
+    seed refined by Rayleigh-quotient inverse iteration.  Runs on an engine thread with
+    that thread's work buffers (``buffers[thread id]``), reused between tapers: every step
+    writes into them (the same operations as the plain expressions in the comments, so the
+    same bits), since a temporary of a 1e7-sample record is 40 MB of fresh memory, slow
+    to touch here (PERFORMANCE.md)."""
+    symmetric = j % 2 == 0
+    diag, lower, upper, weights, scale = systems[symmetric]
+    rows = diag.size
+    work = buffers.setdefault(threading.get_ident(), {})
+    if work.get("rows") != rows:
+        work.clear()
+        work.update({"rows": rows, **{name: np.empty(rows) for name in ("ah", "tmp", "dl", "du", "d", "b", "w")}})
+        work["grid"] = np.arange(rows, dtype=np.float64)
+        work["grid"] += 0.5
+        work["grid"] /= n  # (arange(rows) + 0.5) / n
+    wbuf, tbuf = work["w"], work["tmp"]
+    # the interpolated seed; its array receives each refined vector (one fresh array per taper)
+    h = store = np.interp(work["grid"], u0, base[j])
+    for _ in range(3):
+        wh = np.multiply(weights, h, out=wbuf)  # weights * h
+        norm2 = _dot(wh, h)
+        ah = _matvec(diag, lower, upper, h, work["ah"], tbuf)
+        sigma = _dot(wh, ah) / norm2
+        ah -= np.multiply(sigma, h, out=tbuf)  # ah -= sigma * h
+        resid = math.sqrt(_dot(np.multiply(weights, ah, out=wbuf), ah) / norm2) / scale
+        if resid < 1e-13:
+            break
+        for attempt in range(3):
+            np.copyto(work["dl"], 0.0)
+            work["dl"][:-1] = lower
+            work["du"][:-1] = upper
+            np.subtract(diag, sigma * (1 - 1e-14 * attempt), out=work["d"])
+            np.copyto(work["b"], h)
+            _, _, _, y, info = lapack.dgtsv(work["dl"][:-1], work["d"], work["du"][:-1], work["b"],
+                                             overwrite_dl=1, overwrite_d=1, overwrite_du=1, overwrite_b=1)
+            if info == 0:
+                break
+        if _dot(np.multiply(weights, y, out=wbuf), h) < 0:
+            y = np.negative(y, out=y)
+        # h = y / |y|_w (y is the solver's buffer, not h)
+        h = np.divide(y, math.sqrt(_dot(np.multiply(weights, y, out=wbuf), y)), out=store)
+    return h
+
+
 def half_tapers(n: int, nw: float, k: int) -> HalfTapers:
-    """The first ``k`` unit-energy DPSS tapers of length ``n`` (see the module notes)."""
-    from ._engine import checkpoint
+    """The first ``k`` unit-energy DPSS tapers of length ``n`` (see the module notes).
+
+    The tapers are refined two at a time on the engine threads (:func:`_refine`), then
+    orthogonalised in order in the calling thread, so the bits do not depend on the
+    thread count.
+    """
+    from ._engine import checkpoint, ordered_map
 
     n0 = BASE_LENGTH
     base, ratios = _base(float(nw), int(k))
     u0 = (np.arange(n0) + 0.5) / n0
-    halves = []
     systems = {}
-    work = {}
-    for j in range(k):
+    for symmetric in sorted({j % 2 == 0 for j in range(k)}, reverse=True):
         checkpoint()
-        symmetric = j % 2 == 0
-        if symmetric not in systems:
-            systems[symmetric] = _half_system(n, nw, symmetric)
-        diag, lower, upper, weights = systems[symmetric]
-        rows = diag.size
-        if work.get("rows") != rows:  # buffers reused between tapers: fresh memory is slow here
-            work = {"rows": rows, **{name: np.empty(rows) for name in ("ah", "tmp", "dl", "du", "d", "b")}}
-        h = np.interp((np.arange(rows) + 0.5) / n, u0, base[j])
+        diag, lower, upper, weights = _half_system(n, nw, symmetric)
         scale = float(np.abs(diag).max() + 2 * upper.max())
-        for _ in range(3):
-            wh = weights * h
-            norm2 = _dot(wh, h)
-            ah = _matvec(diag, lower, upper, h, work["ah"], work["tmp"])
-            sigma = _dot(wh, ah) / norm2
-            ah -= sigma * h
-            resid = math.sqrt(_dot(weights * ah, ah) / norm2) / scale
-            if resid < 1e-13:
-                break
-            for attempt in range(3):
-                np.copyto(work["dl"], 0.0)
-                work["dl"][:-1] = lower
-                work["du"][:-1] = upper
-                np.subtract(diag, sigma * (1 - 1e-14 * attempt), out=work["d"])
-                np.copyto(work["b"], h)
-                _, _, _, y, info = lapack.dgtsv(work["dl"][:-1], work["d"], work["du"][:-1], work["b"],
-                                                 overwrite_dl=1, overwrite_d=1, overwrite_du=1, overwrite_b=1)
-                if info == 0:
-                    break
-            if _dot(weights * y, h) < 0:
-                y = -y
-            h = y / math.sqrt(_dot(weights * y, y))
+        systems[symmetric] = (diag, lower, upper, weights, scale)
+    buffers: dict = {}
+    halves = []
+    for j, h in enumerate(ordered_map(lambda j: _refine(j, n, systems, base, u0, buffers), range(k),
+                                      report_blocks=False)):
+        weights = systems[j % 2 == 0][3]
+        if len(h) != (wbuf := buffers.get("caller", np.empty(0))).size:
+            wbuf = buffers["caller"] = np.empty(len(h))
         # orthogonal to the earlier tapers of the same parity (those of the other parity
         # are orthogonal by symmetry), as LAPACK's inverse iteration does for clusters
         for i in range(j % 2, j, 2):
-            h = h - _dot(weights * halves[i], h) * halves[i]
-        h = h / math.sqrt(_dot(weights * h, h))
-        halves.append(np.array(h))
+            # h = h - <h_i, h>_w h_i
+            d = _dot(np.multiply(weights, halves[i], out=wbuf), h)
+            h -= np.multiply(d, halves[i], out=wbuf)
+        h /= math.sqrt(_dot(np.multiply(weights, h, out=wbuf), h))  # h = h / |h|_w
+        halves.append(h)
+    buffers.clear()
     return HalfTapers(n, halves, ratios.copy())
 
 
