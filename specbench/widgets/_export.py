@@ -10,7 +10,9 @@ wheel: ``pip install "specbench[export]"``), as ``.png``.
 
 Every drawn trace is a ``<path class="sb-trace">`` carrying ``data-view``, ``data-role``
 (``band``, ``line``, ``pin-band``, ``pin``) and ``data-points`` (the points it holds), so a
-test (or a reader) can check the file against the marks.
+test (or a reader) can check the file against the marks.  A pin's markers are a
+``<g class="sb-markers" data-role="pin-marker" data-marker=...>`` of ``<path>`` shapes drawn
+with the formulas of bqplot's front end (:func:`._style.marker_path`).
 """
 
 from __future__ import annotations
@@ -26,7 +28,16 @@ from typing import Any
 import numpy as np
 
 from .._errors import SpecbenchError
-from ._style import CURRENT, DASH_ARRAY, LABEL_FONT_PX, TICK_FONT_PX
+from ._style import (
+    CURRENT,
+    DASH_ARRAY,
+    LABEL_FONT_PX,
+    MARKER_SIZE,
+    MARKER_STROKE,
+    STROKE_MARKERS,
+    TICK_FONT_PX,
+    marker_path,
+)
 from ._views import linear_ticks, log_ticks
 
 __all__ = ["ExportError", "THEMES", "LegendEntry", "figure_svg", "views_svg", "export_views", "svg_to_png"]
@@ -51,6 +62,14 @@ class LegendEntry:
     label: str
     colour: str
     dash: str = "solid"
+    marker: str | None = None
+
+
+def _marker_svg(marker: str, colour: str, x: float, y: float, size: float = MARKER_SIZE,
+                stroke_width: float = MARKER_STROKE) -> str:
+    paint = (f'fill="none" stroke="{colour}" stroke-width="{stroke_width:.2g}"' if marker in STROKE_MARKERS
+             else f'fill="{colour}" stroke="none"')
+    return f'<path transform="translate({x:.2f},{y:.2f})" d="{marker_path(marker, size)}" {paint}/>'
 
 
 def _esc(text: Any) -> str:
@@ -186,6 +205,17 @@ def figure_svg(figure: Any, x0: float, y0: float, width: float, height: float, *
             colour = (list(mark.colors) or [CURRENT])[0]
             px, py = mx(x), my(y.ravel())
             ok = np.isfinite(px) & np.isfinite(py)
+            if role == "pin-marker":
+                marker = getattr(mark, "marker", "circle")
+                size = float(getattr(mark, "default_size", MARKER_SIZE))
+                width_m = float(getattr(mark, "stroke_width", MARKER_STROKE) or MARKER_STROKE)
+                out.append(f'<g class="sb-markers" data-view="{_esc(view)}" data-role="pin-marker" '
+                           f'data-marker="{_esc(marker)}" data-points="{int(ok.sum())}">')
+                out += [_marker_svg(marker, colour, a, b, size, width_m) for a, b in zip(px[ok], py[ok])]
+                out.append("</g>")
+                records.append({"view": view, "role": role, "points": int(ok.sum()), "colour": colour,
+                                "marker": marker})
+                continue
             for a, b in zip(px[ok], py[ok]):
                 out.append(f'<circle cx="{a:.2f}" cy="{b:.2f}" r="2.5" fill="{colour}"/>')
             records.append({"view": view, "role": role or "points", "points": int(ok.sum())})
@@ -280,6 +310,7 @@ def views_svg(views: Sequence[tuple[str, Any, dict[int, str] | None]], legend: S
             x, y = 16, y + 18
         body.append(f'<g class="sb-legend-item"><line x1="{x}" x2="{x + 28}" y1="{y - 4}" y2="{y - 4}" '
                     f'stroke="{entry.colour}" stroke-width="2.2"{_dash(entry.dash)}/>'
+                    + (_marker_svg(entry.marker, entry.colour, x + 14, y - 4) if entry.marker else "") +
                     f'<text x="{x + 34}" y="{y}" font-size="{LABEL_FONT_PX}" fill="{colours["text"]}">{label}</text>'
                     "</g>")
         x += item_w
@@ -353,7 +384,7 @@ def _roles(view: Any) -> dict[int, str]:
     for attr, role in (("band", "band"), ("line", "line")):
         if getattr(view, attr, None) is not None:
             roles[id(getattr(view, attr))] = role
-    for attr, role in (("pin_bands", "pin-band"), ("pin_lines", "pin")):
+    for attr, role in (("pin_bands", "pin-band"), ("pin_lines", "pin"), ("pin_markers", "pin-marker")):
         for m in getattr(view, attr, None) or []:
             roles[id(m)] = role
     return roles
@@ -377,7 +408,7 @@ def bench_legend(bench: Any) -> list[LegendEntry]:
     for i, pin in enumerate(getattr(bench, "pins", ()) or ()):
         label = getattr(pin, "label", "") or f"pin {i + 1}"
         entries.append(LegendEntry(f"pin {i + 1}: {label}", getattr(pin, "color", CURRENT),
-                                   getattr(pin, "line_style", "dashed")))
+                                   getattr(pin, "line_style", "dashed"), getattr(pin, "marker", None)))
     return entries
 
 

@@ -24,7 +24,7 @@ from .._errors import SpecbenchError
 from ._merit import spectrum_merits
 from ._session import Problem
 from ._status import guarded
-from ._style import DASH_ARRAY, PIN_STYLES, gapped
+from ._style import DASH_ARRAY, MARKER_STROKE, PIN_MARKER, PIN_STYLES, STROKE_MARKERS, gapped, marker_path
 
 __all__ = ["Pin", "Pins", "PinBoard", "MAX_PINS", "settings_of", "auto_labels"]
 
@@ -47,8 +47,9 @@ class Pin:
     channel, span, fs
         The data selection: channel name, span in seconds (None: whole record) and
         the effective sample rate.
-    color, line_style
-        How the pin is drawn in every view.
+    color, line_style, marker
+        How the pin is drawn in every view: its colour, dash pattern and the marker shape
+        drawn at a few points along its line (each pin's (dash, marker) pair is its own).
     estimator, correlation_estimator, spectrum, correlation
         The PSD and autocorrelation entries of the dicts (None when not pinned).
     """
@@ -64,6 +65,10 @@ class Pin:
     line_style: str
     user_label: bool = False
     settings: dict = field(default_factory=dict, repr=False)
+
+    @property
+    def marker(self) -> str | None:
+        return PIN_MARKER.get(self.color)
 
     @property
     def estimator(self) -> Any:
@@ -143,9 +148,15 @@ def auto_labels(settings: list[dict[str, Any]], estimators: list[Any]) -> list[s
     return labels
 
 
-def swatch(color: str, dash: str) -> str:
-    return (f"<svg width='34' height='10'><line x1='1' y1='5' x2='33' y2='5' stroke='{color}' "
-            f"stroke-width='2.2' stroke-dasharray='{DASH_ARRAY[dash]}'/></svg>")
+def swatch(color: str, dash: str, marker: str | None = None) -> str:
+    """The pin's look as drawn in the views: a short line in its dash, its marker in the middle."""
+    mark = ""
+    if marker is not None:
+        paint = (f"fill='none' stroke='{color}' stroke-width='{MARKER_STROKE}'" if marker in STROKE_MARKERS
+                 else f"fill='{color}'")
+        mark = f"<path transform='translate(17,6)' d='{marker_path(marker)}' {paint}/>"
+    return (f"<svg width='34' height='12'><line x1='1' y1='6' x2='33' y2='6' stroke='{color}' "
+            f"stroke-width='2.2' stroke-dasharray='{DASH_ARRAY[dash]}'/>{mark}</svg>")
 
 
 class PinBoard:
@@ -185,7 +196,7 @@ class PinBoard:
             data += f", fs {p.fs:g} Hz"
             info = W.HTML(
                 f"<div style='display:flex;gap:10px;align-items:baseline;flex-wrap:wrap'>"
-                f"{swatch(p.color, p.line_style)}<b>{html.escape(p.label)}</b>"
+                f"{swatch(p.color, p.line_style, p.marker)}<b>{html.escape(p.label)}</b>"
                 f"<span class='sb-muted'>{summary}</span></div>"
                 f"<div class='sb-pin-settings'>"
                 f"{' · '.join(html.escape(repr(e)) for e in p.estimators.values())} · {html.escape(data)}</div>",

@@ -12,9 +12,12 @@ follows the theme.
 
 from __future__ import annotations
 
+import math
+
 import ipywidgets as W
 
-__all__ = ["AXIS_LABEL", "BAND_OPACITY", "CURRENT", "PIN_BAND_OPACITY", "PIN_STYLES", "gapped", "style_sheet"]
+__all__ = ["AXIS_LABEL", "BAND_OPACITY", "CURRENT", "PIN_BAND_OPACITY", "PIN_STYLES", "PIN_MARKERS", "pin_look",
+           "marker_path", "gapped", "style_sheet"]
 
 #: the current estimate (line and band): petrol blue
 CURRENT = "#1b7396"
@@ -37,6 +40,69 @@ PIN_STYLES: tuple[tuple[str, str], ...] = (
     ("#cc3a1a", "dashed"),
     ("#8f6238", "dotted"),
 )
+
+#: the marker of pins 1..8, drawn at a few points along the pin's line (MARKERS_PER_LINE in the
+#: visible range, staggered so that pins' markers do not sit on one another): with it every pin
+#: has a (dash, marker) pair of its own, so the eight tell apart without colour (print, colour-
+#: vision deficiency); bqplot only has three dash patterns besides solid.
+PIN_MARKERS: tuple[str, ...] = ("circle", "square", "triangle-up", "diamond", "triangle-down", "cross",
+                                "crosshair", "plus")
+#: pin colour -> marker (each pin colour is used once)
+PIN_MARKER = {c: m for (c, _), m in zip(PIN_STYLES, PIN_MARKERS)}
+MARKERS_PER_LINE = 8
+#: marker area in px^2, as bqplot's Scatter ``default_size`` measures it (about 6 px across)
+MARKER_SIZE = 36
+#: stroke width of the markers drawn as strokes only (``plus``, ``crosshair``) and of every marker's outline
+MARKER_STROKE = 1.4
+
+
+def pin_look(index: int) -> tuple[str, str, str]:
+    """(colour, dash, marker) of pin ``index`` (0-based) of :data:`PIN_STYLES`."""
+    colour, dash = PIN_STYLES[index]
+    return colour, dash, PIN_MARKERS[index]
+
+
+def marker_path(marker: str, size: float = MARKER_SIZE) -> str:
+    """SVG path data of ``marker`` of area ``size`` centred on (0, 0), as bqplot's front end draws it.
+
+    The same formulas as bqplot 0.13's ``Markers.ts`` (d3-symbol shapes plus bqplot's own
+    ``plus`` and ``crosshair``), so the exported picture shows the marker the browser shows.
+    """
+    def f(v: float) -> str:
+        return f"{v:.2f}"
+
+    if marker == "circle":
+        r = math.sqrt(size / math.pi)
+        return f"M0,{f(r)}A{f(r)},{f(r)} 0 1,1 0,{f(-r)}A{f(r)},{f(r)} 0 1,1 0,{f(r)}Z"
+    if marker == "square":
+        h = math.sqrt(size) / 2
+        return f"M{f(-h)},{f(-h)}L{f(h)},{f(-h)} {f(h)},{f(h)} {f(-h)},{f(h)}Z"
+    if marker == "diamond":
+        t = math.tan(math.pi / 6)
+        a = math.sqrt(size / (2 * t))
+        b = a * t
+        return f"M0,{f(-a)}L{f(b)},0 0,{f(a)} {f(-b)},0Z"
+    if marker in ("triangle-up", "triangle-down"):
+        r3 = math.sqrt(3)
+        a = math.sqrt(size / r3)
+        b = a * r3 / 2
+        sign = -1 if marker == "triangle-up" else 1
+        return f"M0,{f(sign * b)}L{f(a)},{f(-sign * b)} {f(-a)},{f(-sign * b)}Z"
+    if marker == "cross":
+        a = math.sqrt(size / 5) / 2
+        return (f"M{f(-3 * a)},{f(-a)}H{f(-a)}V{f(-3 * a)}H{f(a)}V{f(-a)}H{f(3 * a)}V{f(a)}H{f(a)}V{f(3 * a)}"
+                f"H{f(-a)}V{f(a)}H{f(-3 * a)}Z")
+    if marker == "plus":
+        h = math.sqrt(size) / 2
+        return f"M0,{f(-h)}L0,{f(h)}M{f(-h)},0L{f(h)},0"
+    if marker == "crosshair":
+        h = math.sqrt(size) / 2
+        return f"M{f(-h)},{f(-h)}L{f(h)},{f(h)}M{f(-h)},{f(h)}L{f(h)},{f(-h)}"
+    raise ValueError(f"no SVG form for the marker {marker!r}; the pin markers are {PIN_MARKERS}")
+
+
+#: markers drawn as strokes only (no area to fill)
+STROKE_MARKERS = frozenset({"plus", "crosshair"})
 
 #: SVG dash arrays matching bqplot's line styles (for the swatches in the pin table and the export)
 DASH_ARRAY = {"solid": "", "dashed": "6,3", "dotted": "2,3", "dash_dotted": "6,3,2,3"}

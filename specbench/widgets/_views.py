@@ -34,7 +34,18 @@ import ipywidgets as W
 import numpy as np
 
 from ._reduce import reduce_sorted
-from ._style import AXIS_LABEL, BAND_OPACITY, CURRENT, PIN_BAND_OPACITY, gapped
+from ._style import (
+    AXIS_LABEL,
+    BAND_OPACITY,
+    CURRENT,
+    MARKER_SIZE,
+    MARKER_STROKE,
+    MARKERS_PER_LINE,
+    PIN_BAND_OPACITY,
+    PIN_MARKER,
+    PIN_MARKERS,
+    gapped,
+)
 
 __all__ = ["Trace", "Overlay", "SpectrumView", "CorrelationView", "spectrum_trace", "correlation_trace", "fmt"]
 
@@ -218,6 +229,34 @@ def correlation_trace(corr, lo: float | None = None, hi: float | None = None) ->
                  corr.unit, yr, int(corr.lag.size))
 
 
+def marker_points(tr: Trace, lo: float | None, hi: float | None, xlog: bool, ylog: bool,
+                  slot: int) -> tuple[np.ndarray, np.ndarray]:
+    """Where a pin's markers sit: :data:`MARKERS_PER_LINE` points of its trace, evenly spaced in
+    the axis's own measure (logarithmic or linear) over the visible x range, offset by the
+    pin's ``slot`` (one eighth of the spacing per slot) so that pins' markers do not coincide."""
+    x, y = np.asarray(tr.x, dtype=float), np.asarray(tr.y, dtype=float)
+    ok = np.isfinite(x) & np.isfinite(y)
+    if xlog:
+        ok &= x > 0
+    if ylog:
+        ok &= y > 0
+    x, y = x[ok], y[ok]
+    if x.size == 0:
+        return np.zeros(0), np.zeros(0)
+    a = float(x[0]) if lo is None else max(float(lo), float(x[0]))
+    b = float(x[-1]) if hi is None else min(float(hi), float(x[-1]))
+    if xlog:
+        a, b = math.log10(max(a, float(x[0]))), math.log10(max(b, float(x[0])))
+    if not b > a:
+        return np.zeros(0), np.zeros(0)
+    t = (np.arange(MARKERS_PER_LINE) + (slot % len(PIN_MARKERS) + 0.5) / len(PIN_MARKERS)) / MARKERS_PER_LINE
+    targets = a + t * (b - a)
+    if xlog:
+        targets = 10.0 ** targets
+    idx = np.clip(np.searchsorted(x, targets), 0, x.size - 1)
+    return x[idx], y[idx]
+
+
 class _TraceView:
     """Figure, band, current line, pin lines, read/zoom tools and the readout."""
 
@@ -242,6 +281,7 @@ class _TraceView:
                              colors=[CURRENT], stroke_width=1.6, enable_hover=False)
         self.pin_lines: list[bq.Lines] = []
         self.pin_bands: list[bq.Lines] = []
+        self.pin_markers: list[bq.Scatter] = []  # a few markers along each pin line (its marker shape)
         self.ax_x, self.ax_y = self._make_axes()
         self.figure = bq.Figure(
             marks=[self.band, self.line], axes=[self.ax_x, self.ax_y],
@@ -388,17 +428,22 @@ class _TraceView:
         while len(self.pin_lines) < len(pins):
             self.pin_lines.append(bq.Lines(x=np.zeros(0), y=np.zeros(0), scales={"x": self.xs, "y": self.ys},
                                            stroke_width=1.3, enable_hover=False))
+        while len(self.pin_markers) < len(pins):
+            self.pin_markers.append(bq.Scatter(
+                x=np.zeros(0), y=np.zeros(0), scales={"x": self.xs, "y": self.ys}, default_size=MARKER_SIZE,
+                stroke_width=MARKER_STROKE, enable_hover=False, apply_clip=True))
         while len(self.pin_bands) < len(pins):
             self.pin_bands.append(bq.Lines(
                 x=np.zeros(0), y=np.zeros((2, 0)), scales={"x": self.xs, "y": self.ys}, fill="between",
                 fill_opacities=[PIN_BAND_OPACITY], opacities=[0.0, 0.0], stroke_width=0.0,
                 enable_hover=False, apply_clip=True))
         used = self.pin_lines[: len(pins)]
+        dots = self.pin_markers[: len(pins)]
         bands = self.pin_bands[: len(pins)] if self.pin_band_toggle.value else []
         extra = self._extra_marks(cur)
-        # pin bands under the current band, the pin lines over it, the current line on top
-        marks = [*bands, self.band, *used, *extra, self.line]
-        holds = [self.figure, self.band, self.line, self.ax_y, self.xs, self.ys, *used, *bands, *extra]
+        # pin bands under the current band, the pin lines (and their markers) over it, the current line on top
+        marks = [*bands, self.band, *used, *dots, *extra, self.line]
+        holds = [self.figure, self.band, self.line, self.ax_y, self.xs, self.ys, *used, *dots, *bands, *extra]
         with contextlib.ExitStack() as stack:
             for w in holds:
                 stack.enter_context(w.hold_sync())
@@ -411,6 +456,14 @@ class _TraceView:
                 m.x, m.y = tr.x, tr.y
                 m.colors = [colour]
                 m.line_style = dash
+                m.scales = {"x": self.xs, "y": self.ys}
+            for m, (tr, colour, _dash) in zip(dots, pins):
+                marker = PIN_MARKER.get(colour, PIN_MARKERS[0])
+                slot = PIN_MARKERS.index(marker)
+                m.x, m.y = marker_points(tr, lo, hi, self._xlog(), self._ylog(), slot)
+                m.marker = marker
+                m.colors = [colour]
+                m.stroke = colour
                 m.scales = {"x": self.xs, "y": self.ys}
             for m, (tr, colour, _dash) in zip(bands, pins):
                 m.x = tr.x

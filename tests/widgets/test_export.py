@@ -121,3 +121,26 @@ def _walk(widget):
     yield widget
     for child in getattr(widget, "children", ()):
         yield from _walk(child)
+
+
+def test_export_draws_every_pins_look(sig, tmp_path):
+    """Eight pins: each view's picture holds every pin's line (its dash) and its markers (its shape)."""
+    bench = sb.Workbench(sig)
+    for i in range(8):
+        bench.controls["overlap"].value = round(0.1 * i, 1)
+        bench.pin()
+    root = ET.parse(bench.export(tmp_path / "eight.svg")).getroot()
+    for name in ("power", "autocorrelation"):
+        lines = root.findall(f".//{SVG}path[@data-view='{name}'][@data-role='pin']")
+        assert [(p.get("stroke"), p.get("stroke-dasharray")) for p in lines] == [
+            (c, _style.DASH_ARRAY[d]) for c, d in _style.PIN_STYLES]
+        groups = root.findall(f".//{SVG}g[@data-view='{name}'][@data-role='pin-marker']")
+        assert [g.get("data-marker") for g in groups] == list(_style.PIN_MARKERS)
+        for g, (colour, _dash) in zip(groups, _style.PIN_STYLES):
+            shapes = g.findall(f"{SVG}path")
+            assert len(shapes) == int(g.get("data-points")) == _style.MARKERS_PER_LINE
+            painted = {s.get("fill") if s.get("fill") != "none" else s.get("stroke") for s in shapes}
+            assert painted == {colour}
+            assert shapes[0].get("d") == _style.marker_path(g.get("data-marker"))
+    legend = root.findall(f".//{SVG}g[@class='sb-legend-item']")
+    assert len(legend) == 9 and all(item.find(f"{SVG}path") is not None for item in legend[1:])

@@ -14,6 +14,7 @@ from __future__ import annotations
 
 import itertools
 import math
+import re
 
 import numpy as np
 import pytest
@@ -96,6 +97,66 @@ def test_pins_stand_apart_from_the_estimate_and_from_pins_of_the_same_dash_in_ev
         if j == i + 1:
             assert a[1] != b[1] and _worst(a[0], b[0]) >= 10.0, (a, b)
     assert len(set(PINS)) == len(PINS)
+
+
+def _polygon_area(d):
+    """Area of a closed SVG path of straight segments (M/L/H/V, absolute), by the shoelace formula."""
+    pts, x, y = [], 0.0, 0.0
+    for cmd, args in re.findall(r"([MLHVZ])([^MLHVZ]*)", d):
+        nums = [float(v) for v in re.findall(r"-?\d+(?:\.\d+)?", args)]
+        if cmd in "ML":
+            for i in range(0, len(nums), 2):
+                x, y = nums[i], nums[i + 1]
+                pts.append((x, y))
+        elif cmd == "H":
+            x = nums[0]
+            pts.append((x, y))
+        elif cmd == "V":
+            y = nums[0]
+            pts.append((x, y))
+    xs, ys = np.array(pts).T
+    return 0.5 * abs(float(np.dot(xs, np.roll(ys, -1)) - np.dot(ys, np.roll(xs, -1))))
+
+
+def test_every_pin_has_a_look_of_its_own_even_without_colour():
+    """Eight pins, eight (colour, dash, marker) looks; the (dash, marker) pairs alone differ too, so
+    the pins tell apart in print and in any colour vision, and neighbours differ in dash and marker."""
+    looks = [_style.pin_look(i) for i in range(len(_style.PIN_STYLES))]
+    assert len(looks) == 8 and len(set(looks)) == 8
+    assert len({(dash, marker) for _, dash, marker in looks}) == 8
+    assert len(set(_style.PIN_MARKERS)) == 8
+    for a, b in zip(looks, looks[1:]):
+        assert a[1] != b[1] and a[2] != b[2]
+    assert all(_style.PIN_MARKER[c] == m for c, _, m in looks)
+
+
+@pytest.mark.parametrize("marker", ["square", "diamond", "triangle-up", "triangle-down", "cross"])
+def test_marker_shapes_have_the_area_bqplot_gives_them(marker):
+    """A marker's size is its area in px^2 (the d3-shape convention for symbol size, which
+    bqplot's Scatter ``default_size`` follows; from memory of the d3-shape documentation)."""
+    assert _polygon_area(_style.marker_path(marker, 36.0)) == pytest.approx(36.0, rel=5e-3)  # 0.01 px rounding
+
+
+def test_pin_markers_sit_on_their_lines_and_apart_from_other_pins(sig):
+    bench = sb.Workbench(sig)
+    for i in range(8):
+        bench.controls["overlap"].value = round(0.1 * i, 1)
+        bench.pin()
+    for view in (bench._psd, bench._acf):
+        dots = [m for m in view.figure.marks if m in view.pin_markers]
+        assert [m.marker for m in dots] == [p.marker for p in bench.pins] == list(_style.PIN_MARKERS)
+        seen = set()
+        for m, line, pin in zip(dots, view.pin_lines, bench.pins):
+            assert m.colors == [pin.color] and line.colors == [pin.color] and line.line_style == pin.line_style
+            x, y = np.asarray(m.x), np.asarray(m.y)
+            assert x.size == _style.MARKERS_PER_LINE
+            lx, ly = np.asarray(line.x), np.asarray(line.y)
+            for a, b in zip(x, y):  # each marker is a point of the pin's own trace
+                assert np.any((lx == a) & (ly == b))
+            seen |= set(x.tolist())
+        # staggered: most markers have an x of their own (where the frequency bins are coarser than
+        # the stagger, near the low end of a log axis, neighbours can land on one bin)
+        assert len(seen) > 5 * _style.MARKERS_PER_LINE
 
 
 def test_the_palette_is_not_a_well_known_default_cycle():
