@@ -6,6 +6,7 @@
 """
 
 from ._errors import Cancelled, ComputeError, InputError, SettingsError, SpecbenchError, SpecbenchWarning
+from ._version import __version__  # noqa: E402
 from .estimators import (
     Autocorrelation,
     CancelToken,
@@ -25,8 +26,6 @@ from .estimators import (
     estimator_from_dict,
     window_info,
 )
-
-__version__ = "0.1.0"
 
 __all__ = [
     "Autocorrelation",

@@ -14,7 +14,7 @@ import numpy as np
 from .._errors import InputError
 from ._assemble import Record, assemble, select_columns
 from ._load import INTERVAL_ATTRIBUTES, RATE_ATTRIBUTES, UNIT_ATTRIBUTES
-from ._signal import Signal
+from ._signal import Signal, register_reader
 from ._timebase import DEFAULT_MAX_JITTER, find_time_column, time_axis
 
 __all__ = ["from_pandas", "from_xarray", "convert"]
@@ -225,3 +225,7 @@ def convert(obj: Any, fs: float | None = None) -> Signal | None:
     if module == "xarray":
         return from_xarray(obj, fs=fs)
     return None
+
+
+register_reader("pandas", from_pandas)
+register_reader("xarray", from_xarray)

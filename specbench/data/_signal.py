@@ -14,14 +14,31 @@ since, so that repeating them rebuilds the same samples bit for bit.
 from __future__ import annotations
 
 import math
-from collections.abc import Sequence
+from collections.abc import Callable, Sequence
 from typing import Any
 
 import numpy as np
 
 from .._errors import InputError
 
-__all__ = ["Signal"]
+__all__ = ["Signal", "register_reader"]
+
+#: Signal.from_<kind> readers of other containers, registered by the modules that hold them
+#: (``_frames`` registers "pandas" and "xarray" when specbench.data is imported): this module,
+#: the bottom of data/, imports no other module of the package but the errors.
+_READERS: dict[str, Callable[..., Signal]] = {}
+
+
+def register_reader(kind: str, reader: Callable[..., Signal]) -> None:
+    """Make ``reader(obj, **options)`` the implementation of ``Signal.from_<kind>``."""
+    _READERS[kind] = reader
+
+
+def _reader(kind: str) -> Callable[..., Signal]:
+    try:
+        return _READERS[kind]
+    except KeyError:  # only when this module is used without its package's __init__
+        raise InputError(f"Signal.from_{kind} needs specbench.data imported (import specbench).") from None
 
 # The first few values shown in messages that list positions.
 _SHOW = 5
@@ -203,9 +220,7 @@ class Signal:
         ``max_jitter``.  The time comes from a DatetimeIndex, a TimedeltaIndex, a float
         index (seconds) or a time column.
         """
-        from ._frames import from_pandas
-
-        return from_pandas(obj, **options)
+        return _reader("pandas")(obj, **options)
 
     @classmethod
     def from_xarray(cls, obj: Any, **options: Any) -> Signal:
@@ -214,9 +229,7 @@ class Signal:
         Options: ``dim`` (the time dimension), ``fs``, ``channels``, ``unit``,
         ``on_gap``, ``max_jitter``.
         """
-        from ._frames import from_xarray
-
-        return from_xarray(obj, **options)
+        return _reader("xarray")(obj, **options)
 
     # -- derived signals ------------------------------------------------------------
     def _derive(self, data: np.ndarray, step: tuple, **changes: Any) -> Signal:

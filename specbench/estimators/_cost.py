@@ -108,6 +108,11 @@ def _lag_model(n: int, c: int, m: int, products: int) -> dict:
     return dict(fft=[(c * nblocks * products * 1.2, p, nblocks > 1)], passes=c * n * 3.0 * products, fixed=1e-3)
 
 
+def lag_cost(m: int, n: int, c: int, products: int = 1) -> dict:
+    """Work model of lag products up to ``m`` lags (``products`` per channel: 4 for a cross pair)."""
+    return _lag_model(n, c, min(m, max(1, n - 1)), products)
+
+
 def _model(est: Any, n: int, c: int, itemsize: int) -> dict:
     custom = getattr(est, "_cost", None)
     if custom is not None:
@@ -125,22 +130,9 @@ def _model(est: Any, n: int, c: int, itemsize: int) -> dict:
         m = _segment_model(n, c, n, n, nfft, itemsize)
         m["passes"] += 14.0 * c * n  # one long transform: fresh memory for its output
         return m
-    if kind == "Multitaper":
-        from .spectral import _multitaper_cost
-
-        return _multitaper_cost(est, n, c, itemsize)
-    if kind in ("Correlogram", "Autocorrelation", "CrossCorrelation"):
-        if kind == "Correlogram":
-            m = est.max_lag
-        else:
-            from .correlation import _max_lag_samples
-
-            try:
-                m = _max_lag_samples(kind, est.max_lag, 1.0, n)
-            except Exception:
-                m = max(1, n // 10)
-        products = 4 if kind == "CrossCorrelation" else 1
-        return _lag_model(n, c, min(m, max(1, n - 1)), products)
+    # Multitaper, Autocorrelation and CrossCorrelation define _cost (above); this module imports no estimator
+    if kind == "Correlogram":
+        return lag_cost(est.max_lag, n, c)
     if kind == "Covariance":  # lag products of every pair, the lag range grown until the sums settle
         m = _lag_model(n, c, 1 << 14, c * c)
         m["fft"] = [(count * 8.0, length, threaded) for count, length, threaded in m["fft"]]

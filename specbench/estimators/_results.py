@@ -1,13 +1,38 @@
-"""Result objects: :class:`Spectrum` and :class:`Correlation`."""
+"""Result objects: :class:`Spectrum` and :class:`Correlation`.
+
+The measurements offered as their methods (``spec.band_power``, ``corr.delay``, ...) are
+implemented above this module (:mod:`specbench.measure`, :mod:`.cross`), which register them
+here with :func:`register_method` when they are imported (``import specbench`` imports both):
+the results import nothing of the package above them.
+"""
 
 from __future__ import annotations
 
+from collections.abc import Callable
 from dataclasses import dataclass, field, replace
 from typing import Any
 
 import numpy as np
 
-__all__ = ["Spectrum", "Correlation", "power_unit", "density_unit"]
+__all__ = ["Spectrum", "Correlation", "power_unit", "density_unit", "register_method"]
+
+#: method name -> implementation ``fn(result, *args, **kwargs)``, registered from above
+_METHODS: dict[str, Callable[..., Any]] = {}
+
+
+def register_method(name: str, fn: Callable[..., Any]) -> None:
+    """Make ``fn(result, ...)`` the implementation of the result method ``name``."""
+    _METHODS[name] = fn
+
+
+def _method(name: str) -> Callable[..., Any]:
+    try:
+        return _METHODS[name]
+    except KeyError:  # only when the estimators are used without the package's __init__
+        from .._errors import SpecbenchError
+
+        raise SpecbenchError(f"{name}() is implemented in specbench.measure / specbench.estimators.cross; "
+                             "import specbench first.") from None
 
 VIEWS = ("density", "asd", "db", "power")
 
@@ -148,45 +173,31 @@ class Spectrum:
     # ---- measurements with uncertainty (thin wrappers over specbench.measure)
     def band_power(self, f1: float, f2: float):
         """Power over ``[f1, f2]`` Hz with an interval: :func:`specbench.measure.band_power`."""
-        from ..measure import band_power
-
-        return band_power(self, f1, f2)
+        return _method("band_power")(self, f1, f2)
 
     def band_rms(self, f1: float, f2: float):
         """RMS over ``[f1, f2]`` Hz with an interval: :func:`specbench.measure.band_rms`."""
-        from ..measure import band_rms
-
-        return band_rms(self, f1, f2)
+        return _method("band_rms")(self, f1, f2)
 
     def noise_floor(self, f1: float | None = None, f2: float | None = None):
         """Robust floor of the density with an interval: :func:`specbench.measure.noise_floor`."""
-        from ..measure import noise_floor
-
-        return noise_floor(self, f1, f2)
+        return _method("noise_floor")(self, f1, f2)
 
     def tones(self, max_count: int = 10, **options):
         """Tones above the local floor: :func:`specbench.measure.tones`."""
-        from ..measure import tones
-
-        return tones(self, max_count=max_count, **options)
+        return _method("tones")(self, max_count=max_count, **options)
 
     def octave_bands(self, fraction: int = 3, f_min: float | None = None, f_max: float | None = None):
         """IEC 61260-1 fractional-octave band powers: :func:`specbench.measure.octave_bands`."""
-        from ..measure import octave_bands
-
-        return octave_bands(self, fraction, f_min=f_min, f_max=f_max)
+        return _method("octave_bands")(self, fraction, f_min=f_min, f_max=f_max)
 
     def integrate(self, order: int = 1) -> Spectrum:
         """Density of the integrated quantity, ``S (2 pi f)^-2`` per order: :func:`specbench.measure.integrate`."""
-        from ..measure import integrate
-
-        return integrate(self, order)
+        return _method("integrate")(self, order)
 
     def differentiate(self, order: int = 1) -> Spectrum:
         """Density of the differentiated quantity, ``S (2 pi f)^2`` per order."""
-        from ..measure import differentiate
-
-        return differentiate(self, order)
+        return _method("differentiate")(self, order)
 
     def channel(self, key: int | str) -> Spectrum:
         """The spectrum of one channel (by index or name)."""
@@ -277,9 +288,7 @@ class Correlation:
         refined between samples, with its standard error and interval (a
         :class:`~specbench.estimators.cross.Delay`; see
         :func:`~specbench.estimators.cross.correlation_delay`)."""
-        from .cross import correlation_delay
-
-        return correlation_delay(self)
+        return _method("delay")(self)
 
     def channel(self, key: int | str) -> Correlation:
         if self.value.ndim == 1:

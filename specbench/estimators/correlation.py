@@ -21,6 +21,7 @@ from scipy import stats
 from .._errors import InputError
 from ._base import Estimator
 from ._common import Timer, confidence_field, detrend_field, nonfinite_error, restore_shape, zero_variance_error
+from ._cost import lag_cost
 from ._engine import as_2d, expect_passes, lagged_products, trend_coefficients
 from ._input import as_samples
 from ._params import Boolean, Interval, Optional, Options, param
@@ -81,6 +82,15 @@ def _z(confidence: float) -> float:
     return float(stats.norm.ppf(0.5 + confidence / 2))
 
 
+def _lag_cost(est: Any, n: int, c: int, products: int) -> dict:
+    """Work model for :meth:`~Estimator.expected_seconds` (``products``: 4 for a cross pair)."""
+    try:
+        m = _max_lag_samples(type(est).__name__, est.max_lag, 1.0, n)
+    except Exception:
+        m = max(1, n // 10)
+    return lag_cost(m, n, c, products)
+
+
 @dataclass(frozen=True, kw_only=True, repr=False)
 class Autocorrelation(Estimator):
     """Sample autocorrelation (or autocovariance) by blocked FFT, with a band.
@@ -121,6 +131,9 @@ class Autocorrelation(Estimator):
     confidence: float = confidence_field()
     gaps: str = _gaps_pairs_field("error: non-finite samples are an error; pairs: lag products over the pairs "
                                   "of samples both present, normalised by the pair count.")
+
+    def _cost(self, n: int, c: int, itemsize: int) -> dict:
+        return _lag_cost(self, n, c, 1)
 
     def __call__(self, x: Any, fs: float | None = None) -> Correlation:
         """Estimate the autocorrelation of ``x`` (samples on the last axis)."""
@@ -217,6 +230,9 @@ class CrossCorrelation(Estimator):
     confidence: float = confidence_field()
     gaps: str = _gaps_pairs_field("error: non-finite samples are an error; pairs: lag products over the "
                                   "samples present in both channels.")
+
+    def _cost(self, n: int, c: int, itemsize: int) -> dict:
+        return _lag_cost(self, n, c, 4)
 
     def __call__(self, x: Any, y: Any = None, *, fs: float | None = None,
                  pair: tuple[int | str, int | str] | None = None) -> Correlation:

@@ -51,7 +51,7 @@ from ._dof import welch_dof
 from ._engine import as_2d, clean_segments
 from ._input import _is_signal_like, as_samples
 from ._params import Options, param
-from ._results import density_unit, power_unit
+from ._results import density_unit, power_unit, register_method
 from .windows import get_window, window_info, window_label
 
 __all__ = ["CrossSpectrum", "CrossSpectrumResult", "Delay", "select_channels"]
@@ -792,3 +792,6 @@ def correlation_delay(corr: Any, half_width: int = 32) -> Delay:
         channels=corr.channels,
         info=dict(fs=fs, peak_sample=int(lags[i0]), peak_value=float(r[i0] / norm), sign=sign),
     )
+
+
+register_method("delay", correlation_delay)  # Correlation.delay() of a cross-correlation

@@ -50,6 +50,7 @@ from ._common import (
     too_short,
     window_field,
 )
+from ._cost import _segment_model
 from ._dof import band_factors, edge_bins, median_bias, median_dof_factor, welch_dof
 from ._dpss import HalfTapers, _base, half_tapers, seed_base
 from ._engine import (
@@ -624,8 +625,6 @@ def _taper_dof(k: int, nfreq: int, near: np.ndarray, u: np.ndarray | None) -> np
 
 def _multitaper_cost(est: Any, n: int, c: int, itemsize: int) -> dict:
     """Work model of :class:`Multitaper` for :meth:`~Estimator.expected_seconds`."""
-    from ._cost import _segment_model
-
     seg = min(est.segment_length or n, n)
     nfft = max(est.nfft or seg, seg)
     k = est.n_tapers
@@ -710,6 +709,9 @@ class Multitaper(SpectralEstimator):
     @property
     def n_tapers(self) -> int:
         return self.tapers if self.tapers is not None else max(1, int(math.floor(2 * self.bandwidth)) - 1)
+
+    def _cost(self, n: int, c: int, itemsize: int) -> dict:
+        return _multitaper_cost(self, n, c, itemsize)
 
     def _check(self) -> None:
         if self.tapers is not None and self.tapers > math.floor(2 * self.bandwidth):

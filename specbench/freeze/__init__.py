@@ -7,6 +7,8 @@
 - ``specbench estimate DATA --settings S.json --out result.csv`` runs them in a pipeline.
 """
 
+# the forms of further analyses register their batch writers and plain-code forms
+from . import _cross_form, _noise_form  # noqa: E402, F401
 from ._codegen import STYLES, check_data_name, code_cell
 from ._fingerprint import Fingerprint, check_data, fingerprint
 from ._freeze import FrozenCode, freeze

@@ -22,9 +22,12 @@ from typing import Any
 
 from .._errors import SettingsError
 from ._describe import (
+    LINE,
     LINE_BREAKS,
     call,
+    container_converter,
     figures_of_merit,
+    input_guard,
     now_iso,
     origin_call,
     selection_text,
@@ -32,14 +35,12 @@ from ._describe import (
     specbench_version,
     wrap_comment,
 )
+from ._scipy_form import scipy_body
 from ._state import FreezeState
 
 __all__ = ["STYLES", "code_cell", "check_data_name"]
 
 STYLES = ("specbench", "scipy")
-
-#: longest line the generator writes before it splits a statement
-LINE = 88
 
 
 def check_data_name(name: Any) -> str:
@@ -91,8 +92,6 @@ def code_cell(
     if style == "specbench":
         body = _specbench_body(state)
     else:
-        from ._scipy_form import scipy_body
-
         body = scipy_body(state)
     code = "\n".join(header) + "\n" + body
     _check_names(code, state.data_name)
@@ -171,25 +170,6 @@ def fingerprint_lines(state: FreezeState, var: str) -> list[str]:
     return out
 
 
-def input_guard(name: str, what: str, example: str = "") -> list[str]:
-    """Lines that stop the cell with a clear message when its input variable ``name`` is not defined."""
-    example = example or f"{name} = np.load('run.npy')"
-    message = (f"This frozen cell needs its input `{name}`: {what}. Define {name} before running the cell, "
-               f"e.g. {example}.")
-    chunks, line = [], ""
-    for word in message.split(" "):
-        if line and len(line) + len(word) + 1 > LINE - 12:
-            chunks.append(line + " ")
-            line = word
-        else:
-            line = f"{line} {word}" if line else word
-    chunks.append(line)
-    out = ["try:", f"    {name}", "except NameError:", "    raise RuntimeError("]
-    out += [f"        {chunk!r}" for chunk in chunks]
-    out += ["    ) from None"]
-    return out
-
-
 def _constructor(var: str, est: Any) -> str:
     """``var = sb.Welch(...)``: the estimator's repr (non-default fields only), wrapped when long."""
     line = f"{var} = sb.{est!r}"
@@ -229,16 +209,6 @@ def data_lines(state: FreezeState, var: str) -> list[str]:
     if len(first) + len(chain) <= LINE and made is not None:
         return [first + chain]
     return [first, f"{var} = {var}{chain}"]
-
-
-def container_converter(signal: Any) -> str | None:
-    """``"from_pandas"`` / ``"from_xarray"`` when an in-memory signal was made from such an object."""
-    source = getattr(signal, "source", "") or ""
-    if source.startswith(("the DataFrame", "the Series")):
-        return "from_pandas"
-    if source.startswith("the DataArray"):
-        return "from_xarray"
-    return None
 
 
 class _Name(str):

@@ -20,9 +20,9 @@ from typing import Any
 import numpy as np
 
 from ..estimators import Covariance, CrossSpectrum
-from ._batch import AnalysisWriter, register_writer, write_table
 from ._describe import one_line, origin_call, py, wrap_comment
 from ._scipy_form import register_plain_form
+from ._writers import AnalysisWriter, register_writer, write_table
 
 __all__ = ["cross_code"]
 

@@ -21,6 +21,9 @@ __all__ = [
     "wrap_comment",
     "one_line",
     "LINE_BREAKS",
+    "LINE",
+    "input_guard",
+    "container_converter",
 ]
 
 #: characters that end a line for Python's tokenizer, for editors or for ``str.splitlines``:
@@ -39,10 +42,10 @@ def one_line(text: Any) -> str:
 
 
 def specbench_version() -> str:
-    """``specbench.__version__``, read when needed (the package may still be importing this module)."""
-    import specbench
+    """``specbench.__version__``."""
+    from .._version import __version__
 
-    return specbench.__version__
+    return __version__
 
 
 def now_iso(now: _dt.datetime | None = None) -> str:
@@ -188,3 +191,36 @@ def wrap_comment(text: str, width: int = 88, indent: str = "#   ") -> list[str]:
         cur += w + " "
     lines.append(cur.rstrip())
     return lines
+
+
+#: longest line the generator writes before it splits a statement
+LINE = 88
+
+
+def input_guard(name: str, what: str, example: str = "") -> list[str]:
+    """Lines that stop the cell with a clear message when its input variable ``name`` is not defined."""
+    example = example or f"{name} = np.load('run.npy')"
+    message = (f"This frozen cell needs its input `{name}`: {what}. Define {name} before running the cell, "
+               f"e.g. {example}.")
+    chunks, line = [], ""
+    for word in message.split(" "):
+        if line and len(line) + len(word) + 1 > LINE - 12:
+            chunks.append(line + " ")
+            line = word
+        else:
+            line = f"{line} {word}" if line else word
+    chunks.append(line)
+    out = ["try:", f"    {name}", "except NameError:", "    raise RuntimeError("]
+    out += [f"        {chunk!r}" for chunk in chunks]
+    out += ["    ) from None"]
+    return out
+
+
+def container_converter(signal: Any) -> str | None:
+    """``"from_pandas"`` / ``"from_xarray"`` when an in-memory signal was made from such an object."""
+    source = getattr(signal, "source", "") or ""
+    if source.startswith(("the DataFrame", "the Series")):
+        return "from_pandas"
+    if source.startswith("the DataArray"):
+        return "from_xarray"
+    return None

@@ -20,7 +20,7 @@ from typing import Any
 import numpy as np
 
 from ..models import CAUTION, fit_noise
-from ._batch import AnalysisWriter, register_writer, write_table
+from ._writers import AnalysisWriter, register_writer, write_table
 
 __all__: list[str] = []
 

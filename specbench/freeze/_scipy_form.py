@@ -21,8 +21,7 @@ from typing import Any
 import numpy as np
 
 from ..estimators import Autocorrelation, Correlogram, Multitaper, Periodogram, Welch
-from ._codegen import container_converter, input_guard
-from ._describe import one_line, origin_call, py, wrap_comment
+from ._describe import container_converter, input_guard, one_line, origin_call, py, wrap_comment
 from ._state import FreezeState
 
 __all__ = ["scipy_body", "numpy_selection", "register_plain_form"]
@@ -568,8 +567,6 @@ def scipy_body(state: FreezeState) -> str:
 
 def _analysis_lines(state: FreezeState) -> list[str]:
     """The plain-form lines of the named analyses beyond psd/acf, in the workbench's order."""
-    from . import _batch  # noqa: F401  (imports the analysis form modules, which register their plain forms)
-
     out: list[str] = []
     for name, est in getattr(state, "analyses", {}).items():
         writer = PLAIN_FORMS.get(type(est))

@@ -25,19 +25,12 @@ from scipy import optimize, stats
 
 from .._errors import InputError, SpecbenchError
 from ._allan import AllanDeviation, AllanResult
+from ._kalman import CAUTION, discrete_model
 
 __all__ = ["fit_noise", "NoiseModel", "Term", "Estimate", "NoiseFitError", "TERMS", "CAUTION"]
 
 TERMS = ("white", "bias_instability", "random_walk", "gauss_markov", "quantization")
 _BI = 2.0 * math.log(2.0) / math.pi
-
-CAUTION = (
-    "Caution: a noise model from one static recording does not capture temperature, vibration or "
-    "aging effects. A filter tuned from it must be validated on the target system (for example by "
-    "innovation consistency tests), and safety-related applications follow their own codes and "
-    "qualified practice."
-)
-
 
 class NoiseFitError(SpecbenchError, ValueError):
     """A requested noise term cannot be identified or separated from the record."""
@@ -199,8 +192,6 @@ class NoiseModel:
 
     def kalman(self, dt: float):
         """Discrete model for a filter step ``dt`` (s): see :class:`DiscreteModel`."""
-        from ._kalman import discrete_model
-
         return discrete_model(self, dt)
 
     # ---------------------------------------------------------------- text

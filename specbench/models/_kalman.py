@@ -22,12 +22,23 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass
+from typing import TYPE_CHECKING
 
 import numpy as np
 from scipy import linalg
 
 from .._errors import InputError
-from ._fit import CAUTION, NoiseModel
+
+if TYPE_CHECKING:  # the fitted model uses this module, never the other way round
+    from ._fit import NoiseModel
+
+#: the caution every noise model and discrete model carries (README's safety note)
+CAUTION = (
+    "Caution: a noise model from one static recording does not capture temperature, vibration or "
+    "aging effects. A filter tuned from it must be validated on the target system (for example by "
+    "innovation consistency tests), and safety-related applications follow their own codes and "
+    "qualified practice."
+)
 
 __all__ = ["DiscreteModel", "discrete_model", "van_loan"]
 

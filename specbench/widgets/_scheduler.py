@@ -78,9 +78,9 @@ class CancelFlag:
 
 
 def _engine_token():
-    import specbench
+    from ..estimators._engine import CancelToken
 
-    return getattr(specbench, "CancelToken", None)
+    return CancelToken
 
 
 class Scheduler:

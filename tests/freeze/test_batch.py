@@ -16,7 +16,7 @@ from freeze_support import FS, make_state
 
 import specbench as sb
 from specbench.cli import main
-from specbench.freeze import Selection, _batch, save_settings, save_state
+from specbench.freeze import Selection, _batch, _writers, save_settings, save_state
 
 
 def _read_csv(path):
@@ -287,8 +287,8 @@ def test_a_correlation_only_file_writes_the_correlation(tmp_path, npy_file):
 
 def test_the_writer_hook(tmp_path, npy_file, monkeypatch, capsys):
     """A new analysis kind registers how it is run and written; a kind without one is reported."""
-    writers = dict(_batch.WRITERS)
-    monkeypatch.setattr(_batch, "WRITERS", writers)
+    writers = dict(_writers.WRITERS)  # the writer table lives in _writers (_batch reads it)
+    monkeypatch.setattr(_writers, "WRITERS", writers)
 
     def run(est, sig, options):
         return np.atleast_2d(est(sig).value)[:, : options["keep"]]
