@@ -511,6 +511,10 @@ def _whole_record_eigenspectra(x: Any, n: int, nw: float, k: int, nfft: int, det
     return sk, lam, sums
 
 
+#: frequencies per item of the adaptive weighting (its buffers stay in the L2 cache)
+CHUNK_ADAPTIVE = 1 << 13
+
+
 def _adaptive(sk: np.ndarray, lam: np.ndarray, sigma2: np.ndarray, fs: float,
               near: np.ndarray | None = None, u: np.ndarray | None = None):
     """Thomson's adaptive weighting, iterated to convergence at every frequency.
@@ -528,7 +532,7 @@ def _adaptive(sk: np.ndarray, lam: np.ndarray, sigma2: np.ndarray, fs: float,
     value = np.empty((c, f))
     dof = np.empty((c, f))
     lam_col = lam[:, None]
-    chunk = 1 << 15
+    chunk = CHUNK_ADAPTIVE
     items = [(ch, f0) for ch in range(c) for f0 in range(0, f, chunk)]
 
     def run(item):
@@ -543,9 +547,20 @@ def _adaptive(sk: np.ndarray, lam: np.ndarray, sigma2: np.ndarray, fs: float,
         s = spec[:2].mean(axis=0)
         active = np.arange(f1 - f0)
         sub, cur = spec, s.copy()
+        # b2 = lam cur**2 / (lam cur + broad)**2 and new = sum(b2 sub) / sum(b2), written
+        # into buffers of the chunk (the same operations in the same order: the same bits)
+        bufs = np.empty((3, k, f1 - f0))
         for _ in range(200):
-            b2 = lam_col * cur**2 / (lam_col * cur + broad) ** 2
-            new = (b2 * sub).sum(axis=0) / b2.sum(axis=0)
+            m = cur.size
+            b2, den, prod = bufs[0, :, :m], bufs[1, :, :m], bufs[2, :, :m]
+            np.multiply(lam_col, np.square(cur), out=b2)
+            np.multiply(lam_col, cur, out=den)
+            np.add(den, broad, out=den)
+            np.square(den, out=den)
+            np.divide(b2, den, out=b2)
+            np.multiply(b2, sub, out=prod)
+            new = prod.sum(axis=0)
+            new /= b2.sum(axis=0)
             moving = np.abs(new - cur) >= 1e-10 * np.maximum(new, np.finfo(float).tiny)
             s[active] = new
             if not moving.any():
