@@ -499,6 +499,73 @@ def _connect(address: str):
         ) from None
 
 
+class MappedSamples:
+    """A memory-mapped array described by its file: path, byte offset, dtype, shape, strides.
+
+    A NumPy view of a memory map (a selection of channels and span, a transposed
+    interleaved file) is described without reading it; pickled to a dask worker, it opens
+    the file there (read-only, once per process) and returns the samples of the block it
+    is asked for, so ``specbench estimate --scheduler`` reads each block where its task
+    runs.  The workers must see the file at the same path (a shared or local disk).
+    """
+
+    _open: dict = {}
+
+    def __init__(self, path: str, offset: int, dtype: str, shape: tuple, strides: tuple, stamp: tuple) -> None:
+        self.path, self.offset, self.dtype = path, int(offset), np.dtype(dtype)
+        self.shape, self.strides, self.stamp = tuple(shape), tuple(strides), stamp
+        self.ndim = len(self.shape)
+
+    @classmethod
+    def of(cls, a: Any) -> MappedSamples | None:
+        """The description of ``a`` if it is a view of a file's memory map, else None."""
+        import mmap
+
+        if not isinstance(a, np.ndarray) or any(st < 0 for st in a.strides) or a.size == 0:
+            return None
+        root = a
+        while isinstance(root, np.ndarray) and not isinstance(root.base, mmap.mmap):
+            root = root.base
+        if not isinstance(root, np.memmap) or not getattr(root, "filename", None):
+            return None
+        start = a.__array_interface__["data"][0] - root.__array_interface__["data"][0]
+        span = sum((n - 1) * st for n, st in zip(a.shape, a.strides)) + a.itemsize
+        if start < 0 or start + span > root.nbytes:
+            return None
+        path = os.fspath(root.filename)
+        st = os.stat(path)
+        return cls(path, root.offset + start, a.dtype.str, a.shape, a.strides, (st.st_size, st.st_mtime_ns))
+
+    def token(self) -> str:
+        import hashlib
+
+        key = repr((self.path, self.offset, self.dtype.str, self.shape, self.strides, self.stamp))
+        return hashlib.blake2b(key.encode(), digest_size=12).hexdigest()
+
+    def __dask_tokenize__(self):
+        return self.token()
+
+    def _view(self) -> np.ndarray:
+        key = (self.path, self.stamp)
+        whole = MappedSamples._open.get(key)
+        if whole is None:
+            try:
+                st = os.stat(self.path)
+            except OSError as e:
+                raise BatchError(f"a dask worker cannot open {self.path!r} ({e.strerror}): the workers read the "
+                                 "memory-mapped input themselves, so it must be at the same path on every "
+                                 "worker (a shared or local disk).") from e
+            if (st.st_size, st.st_mtime_ns) != self.stamp:
+                raise BatchError(f"{self.path!r} changed while it was being estimated (size or modification "
+                                 "time differs from when it was opened); run the estimate again on the "
+                                 "finished file.")
+            whole = MappedSamples._open[key] = np.memmap(self.path, dtype=np.uint8, mode="r")
+        return np.ndarray(self.shape, dtype=self.dtype, buffer=whole, offset=self.offset, strides=self.strides)
+
+    def __getitem__(self, key: Any) -> np.ndarray:
+        return np.array(self._view()[key])
+
+
 def _on_cluster(sig: Any) -> Any:
     """The selection's samples as a dask array, so that the engines send the blocks to the
     workers (a lazily opened HDF5/zarr input already is one)."""
@@ -509,7 +576,13 @@ def _on_cluster(sig: Any) -> Any:
         return sig
     import dask.array as da
 
-    lazy = da.from_array(np.asarray(sig.data), chunks=(sig.n_channels, TASK_SAMPLES))
+    mapped = MappedSamples.of(sig.data)
+    if mapped is not None:  # the workers open the file themselves: the client reads no samples
+        lazy = da.from_array(mapped, chunks=(sig.n_channels, TASK_SAMPLES), asarray=True, lock=False,
+                             fancy=False, name=f"specbench-mapped-{mapped.token()}",
+                             meta=np.empty((0,) * mapped.ndim, dtype=mapped.dtype))
+    else:
+        lazy = da.from_array(np.asarray(sig.data), chunks=(sig.n_channels, TASK_SAMPLES))
     return Signal(lazy, sig.fs, channels=sig.channels, unit=sig.unit, t0=sig.t0, source=sig.source,
                   origin=sig._origin, selection=sig._selection, truth=sig._truth, start=sig._start)
 
