@@ -111,6 +111,24 @@ class Structure:
         d0 = self.dtft(np.zeros(1))
         return (np.abs(d) ** 2).mean(axis=0) / float((np.abs(d0) ** 2).mean())
 
+    def kernel_table(self, m: np.ndarray, g: np.ndarray) -> np.ndarray:
+        """``kernel(m[None, :] - g[:, None])`` for integer offsets ``m`` and shifts ``g``.
+
+        The transform's phase factors separate, ``exp(-i2pi (m - g) t / F) = exp(i2pi g t / F)
+        exp(-i2pi m t / F)``: ``(G + M) n`` exponentials and one product, instead of ``G M n``.
+        """
+        if self.kind == "lag":
+            return self.kernel(np.asarray(m)[None, :] - np.asarray(g)[:, None])
+        h = self.tapers
+        n = h.shape[-1]
+        t = np.arange(n)
+        f = self.pad * n
+        a = np.exp(2j * np.pi * np.multiply.outer(np.asarray(g, dtype=np.float64), t) / f)  # (G, n)
+        b = np.exp(-2j * np.pi * np.multiply.outer(t, np.asarray(m, dtype=np.float64)) / f)  # (n, M)
+        d = np.stack([(a * hk) @ b for hk in h])  # (K, G, M)
+        d0 = self.dtft(np.zeros(1))
+        return (np.abs(d) ** 2).mean(axis=0) / float((np.abs(d0) ** 2).mean())
+
     def grid(self) -> tuple[np.ndarray, np.ndarray]:
         """The response on a 1/32-bin grid from 0 to ``min(nfft/2, 300)`` bins (zero-padded FFT)."""
         key = "grid"

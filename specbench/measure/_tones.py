@@ -106,8 +106,7 @@ def _dof_at(spec: Any, lay: dict, idx: np.ndarray) -> np.ndarray:
 def _table(st: Structure, h: int) -> np.ndarray:
     key = ("fit", h)
     if key not in st._cache:
-        m = np.arange(-h, h + 1)
-        st._cache[key] = st.kernel(m[None, :] - GRID[:, None])  # (G, 2h+1)
+        st._cache[key] = st.kernel_table(np.arange(-h, h + 1), GRID)  # (G, 2h+1)
     return st._cache[key]
 
 

@@ -205,6 +205,12 @@ class SpectrumAnalysis(Analysis):
     prefix = ""
     main = True
 
+    def __init__(self) -> None:
+        from ._measure import MeasureState
+
+        #: the band cursor, tones and harmonic cursors of the view, and their last readings
+        self.measure = MeasureState()
+
     def classes(self) -> list[type]:
         return spectral_classes()
 
@@ -268,7 +274,9 @@ class SpectrumAnalysis(Analysis):
         return repr(est)
 
     def freeze_lines(self, est, data_var):
-        return None
+        """The readings of the measurements table, on the cell's ``spectrum`` (the freeze layer
+        writes the estimator and ``spectrum = psd_estimator(...)`` itself)."""
+        return self.measure.code_lines("spectrum") or None
 
 
 class CorrelationAnalysis(Analysis):

@@ -143,7 +143,7 @@ def figure_svg(figure: Any, x0: float, y0: float, width: float, height: float, *
 
     ``roles`` names the role of a mark by its ``id()`` (``band``, ``line``, ``pin-band``, ``pin``);
     unnamed marks are ``line`` (or ``band`` when filled).  Marks other than ``Lines`` and
-    ``Scatter`` are not drawn.
+    ``Scatter``, and marks on a y scale other than the axis's, are not drawn.
     """
     colours = THEMES[theme]
     margin = getattr(figure, "fig_margin", None) or {"top": 12, "bottom": 46, "left": 72, "right": 30}
@@ -153,6 +153,8 @@ def figure_svg(figure: Any, x0: float, y0: float, width: float, height: float, *
     axes = list(figure.axes)
     xscale = next((a.scale for a in axes if a.orientation != "vertical"), marks[0].scales["x"] if marks else None)
     yscale = next((a.scale for a in axes if a.orientation == "vertical"), marks[0].scales["y"] if marks else None)
+    # marks on a scale of their own (e.g. the measurement cursors, full height) are not drawn
+    marks = [m for m in marks if m.scales.get("y") is yscale or yscale is None]
     xs_all = [np.asarray(m.x, dtype=float).ravel() for m in marks]
     ys_all = [np.asarray(m.y, dtype=float).ravel() for m in marks]
     mx = _Map(xscale, *_domain(xscale, xs_all), left, right)

@@ -4,18 +4,34 @@ A view host has ``widget`` (the box laid out in the Workbench), ``figure``,
 ``show(shown, pinned)`` (``pinned``: ``[(shown result, colour, dash)]``), ``holds()`` (the
 widgets held in sync while drawing), ``controls()`` (display-only controls by key, never part
 of an estimator), ``marks_points()`` and ``read(x)``; optionally ``set_overlays(overlays)``
-(model curves of other analyses, :meth:`Analysis.overlays`, set before each ``show``).
+(model curves of other analyses, :meth:`Analysis.overlays`, set before each ``show``),
+``panels()`` (``[(title, widget)]`` laid out under the figures of merit) and ``bind(context)``
+(a :class:`HostContext`: the selected record, the analysis's estimator on screen, and a way
+to propose another one, computed like a control change).
 """
 
 from __future__ import annotations
 
+from dataclasses import dataclass
 from typing import Any
 
 import ipywidgets as W
 
 from ._views import CorrelationView, SpectrumView
 
-__all__ = ["TraceHost", "SpectrumHost", "CorrelationHost", "DisplayOption"]
+__all__ = ["TraceHost", "SpectrumHost", "CorrelationHost", "DisplayOption", "HostContext"]
+
+
+@dataclass(frozen=True)
+class HostContext:
+    """What the Workbench gives a view that needs more than its result (see ``bind``)."""
+
+    #: callable() -> the selected Signal (channel, rate, span)
+    selected: Any
+    #: callable() -> the analysis's estimator on screen
+    estimator: Any
+    #: callable(estimator): show it in the controls and compute it (a refusal goes to the status line)
+    apply: Any
 
 
 class DisplayOption:
@@ -103,11 +119,53 @@ class SpectrumHost(TraceHost):
         for o in self._options.values():
             o._tooltip = o.widget.tooltip
 
+        from ._measure import MeasureState
+        from ._measure_view import AdvisePanel, MeasureLayer, MeasurePanel
+
+        state = getattr(analysis, "measure", None)
+        self.measure = state if isinstance(state, MeasureState) else MeasureState()
+        self.layer = MeasureLayer(self.view, self.measure, on_band=self._band)
+        self.table = MeasurePanel(self.view, self.measure, self._remeasure)
+        self.advise = AdvisePanel()
+        self.widget.children = [*self.widget.children, self.table.readout, self.table.controls]
+
     def controls(self):
         return dict(self._options)
 
+    def show(self, shown: Any, pinned: list[tuple[Any, str, str]]) -> None:
+        if shown is not None:
+            self._read(shown)
+        super().show(shown, pinned)
+        self.table.show(self.view.result)
+
+    def _read(self, spec: Any) -> None:
+        try:
+            self.measure.read(spec)
+        except Exception as e:  # a reading never breaks the view of the estimate
+            self.table.message = f"no measurements ({type(e).__name__}: {e})"
+
+    def _band(self, f1: float, f2: float) -> None:
+        self.table.set_band(f1, f2)
+
+    def _remeasure(self) -> None:
+        """The user changed a cursor: read again and redraw the layer and the table."""
+        spec = self.view.result
+        if spec is None:
+            return
+        self._read(spec)
+        self.view.redraw()
+        self.table.show(spec)
+
+    def panels(self) -> list:
+        return [("Measurements", self.table.widget), ("Advise settings", self.advise.widget)]
+
+    def bind(self, context: HostContext) -> None:
+        self.advise.get_selected = context.selected
+        self.advise.get_estimator = context.estimator
+        self.advise.apply = context.apply
+
     def holds(self) -> list:
-        return super().holds() + list(self.view.overlay_lines.values())
+        return super().holds() + list(self.view.overlay_lines.values()) + self.layer.holds()
 
     def set_overlays(self, overlays: list) -> None:
         """Model curves of other analyses over the PSD (:class:`._views.Overlay`)."""

@@ -267,6 +267,10 @@ class _TraceView:
     def __init__(self, title: str, height: str = "360px") -> None:
         self._guard = 0
         self.zoomed = False
+        #: zoomed: y fits the visible part (True) or keeps the whole estimate's range (False)
+        self.fit_visible = True
+        #: further tools of the tool menu: value -> callable returning a bqplot interaction
+        self.extra_tools: dict[str, Any] = {}
         self.result = None  # the full-resolution result on screen
         self._read_x: float | None = None  # where the read tool was last
         self.pinned: list[tuple[Any, str, str]] = []  # (result, colour, dash)
@@ -347,7 +351,9 @@ class _TraceView:
             self._ticks()
 
     def _set_tool(self) -> None:
-        if self.tool.value == "zoom":
+        if self.tool.value in self.extra_tools:
+            self.figure.interaction = self.extra_tools[self.tool.value]()
+        elif self.tool.value == "zoom":
             self.figure.interaction = bq.interacts.PanZoom(scales={"x": [self.xs]})
         else:
             sel = bq.interacts.IndexSelector(scale=self.xs, marks=[], color="var(--jp-ui-font-color2)", line_width=1)
@@ -476,7 +482,10 @@ class _TraceView:
             self.ax_y.label = self._y_label(cur)
             traces = [cur] + [p[0] for p in pins]
             if self.zoomed and lo is not None and hi is not None:
-                traces = [_visible(t, lo, hi, self._ylog()) for t in traces]
+                if self.fit_visible:
+                    traces = [_visible(t, lo, hi, self._ylog()) for t in traces]
+                else:  # y keeps the range of the whole estimates
+                    traces = [self._trace_cached(r, None, None) for r in (self.result, *[p[0] for p in self.pinned])]
             self._fit_y(traces)  # zoomed: y fits the visible part
             if not self.zoomed:
                 self._fit_x(traces)
@@ -587,6 +596,8 @@ class SpectrumView(_TraceView):
         self.plot_as.observe(lambda ch: self.set_display(kind=ch["new"]), names="value")
         self.freq_axis.observe(lambda ch: self.set_display(xlog=ch["new"] == "log"), names="value")
         self.footer.children = [self.plot_as, self.freq_axis, self.readout]
+        #: objects with ``marks()`` and ``draw(trace)`` drawn with the estimate (over the pins)
+        self.layers: list = []
         # model curves of other analyses (set_overlays); the toggle shows only while there are some
         self.overlays: list[Overlay] = []
         self.overlay_lines: dict[str, bq.Lines] = {}
@@ -610,9 +621,10 @@ class SpectrumView(_TraceView):
                 self.overlay_lines[o.key] = line
 
     def _extra_marks(self, cur: Trace) -> list:
-        if not self.overlay_toggle.value:
-            return []
-        return [self.overlay_lines[o.key] for o in self.overlays]
+        out = [self.overlay_lines[o.key] for o in self.overlays] if self.overlay_toggle.value else []
+        for layer in self.layers:  # e.g. the measurement cursors (widgets/_measure_view.py)
+            out += layer.marks()
+        return out
 
     def overlay_values(self, overlay: Overlay, freq: np.ndarray) -> np.ndarray:
         """``overlay`` at ``freq`` in the view's "plot as" form of the estimate on screen."""
@@ -629,6 +641,10 @@ class SpectrumView(_TraceView):
             return d
 
     def _draw_extra(self, cur: Trace, marks: list) -> None:
+        for layer in self.layers:
+            layer.draw(cur)
+        if not self.overlay_toggle.value:
+            return
         for o, m in zip(self.overlays, marks):
             try:
                 y = self.overlay_values(o, cur.x)

@@ -49,6 +49,7 @@ from ._session import DataSelection, Problem, Session, check_selection, gap_defa
 from ._status import guarded, status_of
 from ._statusline import StatusLine
 from ._style import gapped, style_sheet
+from ._viewhost import HostContext
 
 __all__ = ["Workbench", "spectral_classes", "carry_over", "COALESCE_SECONDS"]
 
@@ -187,10 +188,13 @@ class Workbench(W.VBox):
         self._pins = Pins(self._session, lambda: self._draw(data=False), self._show_status)
         self._statusline = StatusLine(self.cancel)
         self._scheduler = Scheduler(lambda *a: self._run(*a))
-        for host in self._hosts.values():
+        for name, host in self._hosts.items():
             for option in host.controls().values():
                 if hasattr(option, "on_problem"):
                     option.on_problem = self._view_problem
+            if hasattr(host, "bind"):  # views that read the record or propose an estimator
+                host.bind(HostContext(selected=lambda: self.selected, estimator=lambda n=name: self.estimator_of(n),
+                                      apply=lambda est, n=name: self._apply_from_ui(n, est)))
 
         # controls
         self._binding = ControlBinding(self._session, self._on_field, self._on_method, self._context)
@@ -215,6 +219,8 @@ class Workbench(W.VBox):
         main = gapped(W.VBox([gapped(self._binding.box, "wide"), views,
                               self._statusline.progress, self._statusline.line,
                               section("Figures of merit"), self._merit.widget,
+                              *[w for h in self._hosts.values() if hasattr(h, "panels")
+                                for title, panel in h.panels() for w in (section(title), panel)],
                               section("Pins"), self._pins.board.widget,
                               section("Picture"), _export_control(self)],
                              layout=W.Layout(width="100%")), "small")
@@ -547,6 +553,29 @@ class Workbench(W.VBox):
 
     def set_estimator(self, name: str, est: Any) -> None:
         """Set the estimator of analysis ``name`` and recompute before returning (all or nothing)."""
+        self._set_from_code(self._wanted_with(name, est))
+
+    @_guarded
+    def _apply_from_ui(self, name: str, est: Any) -> None:
+        """A view proposes an estimator (e.g. an advised setting): shown in the controls and computed
+        like a control change (coalesced, in the background when long); a refusal goes to the status."""
+        s = self._session
+        try:
+            wanted = self._wanted_with(name, est)
+        except SpecbenchError as e:
+            s.errors[f"build:{name}"] = Problem(str(e))
+            self._show_status()
+            return
+        for n in s.slots:
+            s.errors.pop(f"build:{n}", None)
+        for n, e in wanted.items():
+            self._binding.show(n, e)
+            s.propose(n, e)
+        self._changed.add(self._binding.methods[name].key if name in self._binding.methods else "method")
+        self._request()
+
+    def _wanted_with(self, name: str, est: Any) -> dict[str, Any]:
+        """Every analysis's estimator once ``name`` takes ``est`` (the shared data fields follow)."""
         s = self._session
         slot = s.slots.get(name)
         if slot is None:
@@ -561,7 +590,7 @@ class Workbench(W.VBox):
                 own = {k: v for k, v in values.items() if s.shares(x, k)}
                 if own:
                     wanted[n] = wanted[n].replace(**own)
-        self._set_from_code(wanted)
+        return wanted
 
     @property
     def estimator(self) -> Any:
@@ -703,8 +732,8 @@ class Workbench(W.VBox):
                 if opts:
                     options[n] = opts
         lines = {}
-        for n, x in s.slots.items():
-            if n in extra:
+        for n, x in s.slots.items():  # psd / acf: lines after the freeze layer's own (e.g. measurements)
+            if x.result is not None or n in extra:
                 got = x.analysis.freeze_lines(x.est, "{sig}")
                 if got:
                     lines[n] = got

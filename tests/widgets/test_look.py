@@ -195,7 +195,9 @@ def test_white_noise_in_the_workbench():
 
 
 def _bands_of(view):
-    return [m for m in view.figure.marks if getattr(m, "fill", "none") == "between" and m is not view.band]
+    cursors = [m for layer in getattr(view, "layers", []) for m in layer.marks()]  # e.g. the band cursor
+    return [m for m in view.figure.marks if getattr(m, "fill", "none") == "between" and m is not view.band
+            and m not in cursors]
 
 
 def test_pins_keep_their_band_lighter_and_the_bands_toggle(sig):
