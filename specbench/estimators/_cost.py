@@ -31,12 +31,15 @@ _SPEED: dict[str, float] | None = None
 
 
 def _best(fn, repeats=3) -> float:
-    best = math.inf
+    """Median of ``repeats`` timed runs after one warm-up run (the median, not the best: on
+    a shared machine the estimates should price the load the estimate will meet)."""
+    fn()
+    times = []
     for _ in range(repeats):
         t0 = time.perf_counter()
         fn()
-        best = min(best, time.perf_counter() - t0)
-    return best
+        times.append(time.perf_counter() - t0)
+    return sorted(times)[len(times) // 2]
 
 
 def machine_speed() -> dict[str, float]:
@@ -78,9 +81,39 @@ def _threads() -> int:
     return _THREADS
 
 
+def largest_prime_factor(n: int) -> int:
+    n, p, largest = int(n), 2, 1
+    while p * p <= n:
+        while n % p == 0:
+            n //= p
+            largest = p
+        p += 1 if p == 2 else 2
+    return max(largest, n)
+
+
+#: pocketfft (scipy.fft, numpy.fft) transforms lengths whose prime factors are all at most
+#: this size directly; a length with a larger prime factor is transformed by Bluestein's
+#: algorithm, about 3 transforms of the next fast length >= 2n - 1 (measured here: an rfft
+#: of the prime length 10000019 takes 8.4x the time of one of 10**7)
+DIRECT_FACTORS = 13
+
+
+def _fast_lengths(transforms):
+    import scipy.fft
+
+    out = []
+    for count, n, threaded in transforms:
+        n = int(n)
+        if n > 64 and largest_prime_factor(n) > DIRECT_FACTORS:
+            out.append((3.0 * count, scipy.fft.next_fast_len(2 * n - 1), threaded))
+        else:
+            out.append((count, n, threaded))
+    return out
+
+
 def _fft_seconds(transforms, speed) -> float:
     total = 0.0
-    for count, n, threaded in transforms:
+    for count, n, threaded in _fast_lengths(transforms):
         lg = math.log2(max(2, n))
         f = min(1.0, max(0.0, (lg - 14.0) / 6.0))  # in cache up to 2**14 samples
         short = speed["fft_short"] * (1.0 if threaded else _threads())
@@ -95,7 +128,10 @@ def _segment_model(n: int, c: int, nperseg: int, step: int, nfft: int, itemsize:
     nseg = max(0, (n - nperseg) // step + 1)
     single = 0.6 if itemsize <= 4 else 1.0
     threaded = nseg > 1
-    return dict(fft=[(c * nseg * passes * single, nfft, threaded)], passes=2.0 * c * n, fixed=1e-3)
+    # fixed: about 1 us per sample of segment per call of the threaded engine (fitted: 29
+    # segments of 65536 took 2.3 ms each, 305 of them 1.3 ms each)
+    fixed = 1e-3 + (1e-6 * nfft if threaded else 0.0)
+    return dict(fft=[(c * nseg * passes * single, nfft, threaded)], passes=2.0 * c * n, fixed=fixed)
 
 
 def _lag_model(n: int, c: int, m: int, products: int) -> dict:
@@ -128,21 +164,26 @@ def _model(est: Any, n: int, c: int, itemsize: int) -> dict:
     if kind == "Periodogram":
         nfft = max(est.nfft or n, n)
         m = _segment_model(n, c, n, n, nfft, itemsize)
-        m["passes"] += 14.0 * c * n  # one long transform: fresh memory for its output
+        m["passes"] += 40.0 * c * n  # one long transform: fresh memory for its output (fitted)
         return m
     # Multitaper, Autocorrelation and CrossCorrelation define _cost (above); this module imports no estimator
     if kind == "Correlogram":
-        return lag_cost(est.max_lag, n, c)
+        m = lag_cost(est.max_lag, n, c)
+        m["scale"] = 1.8 * SCALE  # fitted on bench_cost (measured 3.4x / 2.0x the lag model at 1e6 / 1e7)
+        return m
     if kind == "Covariance":  # lag products of every pair, the lag range grown until the sums settle
         m = _lag_model(n, c, 1 << 14, c * c)
-        m["fft"] = [(count * 8.0, length, threaded) for count, length, threaded in m["fft"]]
-        m["passes"] *= 8
+        # measured 20x the time for 10x the samples (bench_cost): the lag range grows with n
+        grow = 8.0 * max(1.0, n / 1e6) ** 0.3
+        m["fft"] = [(count * grow, length, threaded) for count, length, threaded in m["fft"]]
+        m["passes"] *= grow
         return m
     if kind == "CrossSpectrum":  # one FFT per segment and channel, products of every pair
         nperseg = min(est.segment_length, n)
         step = max(1, nperseg - int(est.overlap * nperseg))
         m = _segment_model(n, c, nperseg, step, est.nfft or nperseg, itemsize)
         m["passes"] += c * c * n * 1.0
+        m["fixed"] += 0.03  # coherence, phase and gain bands of every pair (fitted on bench_cost)
         return m
     # an estimator without a model: a Welch-sized load over the channels, twice
     seg = getattr(est, "segment_length", None) or min(n, 4096)
@@ -166,4 +207,11 @@ def expected_seconds(est: Any, n: int, c: int = 1, dtype: Any = "float64") -> fl
     fft = m.get("fft", [])
     if isinstance(fft, (int, float)):  # an FFT work count in n log2 n units, short-transform price
         fft = [(float(fft) / (1024 * 10.0), 1024, True)]
-    return float(m.get("fixed", 0.0) + _fft_seconds(fft, speed) + m.get("passes", 0.0) * speed["pass"])
+    work = _fft_seconds(fft, speed) + m.get("passes", 0.0) * speed["pass"]
+    return float(m.get("fixed", 0.0) + m.get("scale", SCALE) * work)
+
+
+#: measured / modelled time over bench_cost's cases (median ratio, shared 2-core machine):
+#: the probe runs in cache on a short record, the estimates out of cache on long ones.  A
+#: model that was fitted on measured times as a whole says so with its own ``scale``.
+SCALE = 1.6

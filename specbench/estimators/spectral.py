@@ -639,7 +639,14 @@ def _taper_dof(k: int, nfreq: int, near: np.ndarray, u: np.ndarray | None) -> np
 
 
 def _multitaper_cost(est: Any, n: int, c: int, itemsize: int) -> dict:
-    """Work model of :class:`Multitaper` for :meth:`~Estimator.expected_seconds`."""
+    """Work model of :class:`Multitaper` for :meth:`~Estimator.expected_seconds`.
+
+    Whole record (fitted on ``tests/benchmarks/bench_cost.py``, 1e6 and 1e7 samples):
+    tapers about 50 sample passes per taper and sample (one inverse-iteration step and two
+    residuals on the half problem, two tapers at a time), per taper one transform of
+    ``nfft`` (at the price of its length: see ``_cost.DIRECT_FACTORS``) and 14 passes,
+    adaptive weights 40 passes per taper and frequency, bands 60 per frequency.
+    """
     seg = min(est.segment_length or n, n)
     nfft = max(est.nfft or seg, seg)
     k = est.n_tapers
@@ -649,15 +656,17 @@ def _multitaper_cost(est: Any, n: int, c: int, itemsize: int) -> dict:
     if (seg, float(est.bandwidth), k) not in _TAPERS_BUILT:
         if seg > FAST_DPSS_MIN:  # short seed tapers, then one tridiagonal solve per taper
             fixed += 0.12 * k / 7
-            passes += 140.0 * seg * k
+            passes += 50.0 * seg * k
         else:  # scipy.signal.windows.dpss: about 1.6 us per sample for 7 tapers here
             fixed += 1.6e-6 * seg * k / 7
     if nseg == 1:
         fft = [(c * k, nfft, True)]  # one transform per taper, two tapers at a time
-        passes += 14.0 * c * k * n
-    else:
-        m = _segment_model(n, c, seg, seg, nfft, itemsize, passes=k)
-        fft, passes = m["fft"], passes + m["passes"]
+        passes += 14.0 * c * k * n + 60.0 * c * nfreq
+        if est.adaptive and k > 1:
+            passes += 40.0 * c * k * nfreq
+        return dict(fft=fft, passes=passes, fixed=fixed, scale=1.0)
+    m = _segment_model(n, c, seg, seg, nfft, itemsize, passes=k)
+    fft, passes = m["fft"], passes + m["passes"]
     if est.adaptive and k > 1:
         passes += 90.0 * c * k * nfreq
     return dict(fft=fft, passes=passes, fixed=fixed)
