@@ -28,6 +28,7 @@ __all__ = [
     "ParamSpec",
     "param",
     "settings_error",
+    "parameter_entries",
 ]
 
 Scale = Literal["linear", "log", "log2"]
@@ -50,6 +51,10 @@ class Constraint:
 
     def describe(self) -> str:
         raise NotImplementedError
+
+    def doc_type(self) -> str:
+        """The numpydoc type of the field (``int``, ``{'mean', 'median'}``, ...)."""
+        return "object"
 
     def invalid_values(self) -> list[Any]:
         """Values that must be rejected (used by the conformance tests)."""
@@ -108,6 +113,9 @@ class Interval(Constraint):
         right = "]" if self.closed in ("both", "right") and self.high is not None else ")"
         return f"{what} in the range {left}{lo}, {hi}{right}"
 
+    def doc_type(self) -> str:
+        return "int" if self.kind is int else "float"
+
     def invalid_values(self) -> list[Any]:
         bad: list[Any] = ["text", None, float("nan")]
         if self.low is not None:
@@ -137,6 +145,9 @@ class Options(Constraint):
     def describe(self) -> str:
         return "one of " + ", ".join(repr(v) for v in self.values)
 
+    def doc_type(self) -> str:
+        return "{" + ", ".join(repr(v) for v in self.values) + "}"
+
     def invalid_values(self) -> list[Any]:
         return ["no-such-option", 3, None]
 
@@ -152,6 +163,9 @@ class Boolean(Constraint):
 
     def describe(self) -> str:
         return "True or False"
+
+    def doc_type(self) -> str:
+        return "bool"
 
     def invalid_values(self) -> list[Any]:
         return ["yes", 2, None]
@@ -171,6 +185,9 @@ class Optional(Constraint):
 
     def describe(self) -> str:
         return f"None ({self.none_means}) or {self.inner.describe()}"
+
+    def doc_type(self) -> str:
+        return f"{self.inner.doc_type()} or None"
 
     def invalid_values(self) -> list[Any]:
         return [v for v in self.inner.invalid_values() if v is not None]
@@ -219,3 +236,15 @@ def param(
         )
     }
     return dataclasses.field(default=default, metadata=meta)
+
+
+def parameter_entries(cls: Any) -> list[tuple[str, str, str]]:
+    """``(name, type line, allowed text)`` of every field of ``cls``'s constraint table, in order.
+
+    The numpydoc Parameters section of every estimator's docstring holds one entry per field:
+    ``name : <type>, default <repr>``, its description, and a last paragraph
+    ``Allowed: <the constraint>``.  ``tools/param_docs.py`` writes these entries from the table
+    and ``tests/estimators/test_param_docs.py`` checks them against it.
+    """
+    return [(name, f"{spec.constraint.doc_type()}, default {spec.default!r}", f"Allowed: {spec.constraint.describe()}.")
+            for name, spec in cls.params().items()]

@@ -116,6 +116,31 @@ class Autocorrelation(Estimator):
     ``+- z (P_0 - k) / (P_0 sqrt(P_k))`` (``+- z / sqrt(P_k)`` unbiased), Bartlett's variance
     times ``(P_0 - k) / (P_0 P_k)`` instead of ``1 / N``; both reduce to the gap-free bands
     when nothing is missing, and their coverage is checked by Monte Carlo in the tests.
+
+    Parameters
+    ----------
+    max_lag : float or None, default None
+        Largest lag shown, in seconds.
+        Allowed: None (the first 2048 lags) or a float in the range (0, inf).
+    normalize : bool, default True
+        Divide by the lag-0 value (correlation coefficient).
+        Allowed: True or False.
+    unbiased : bool, default False
+        Divide lag k by N - k instead of N (noisier at long lags).
+        Allowed: True or False.
+    band : {'white', 'bartlett'}, default 'white'
+        white: band of a white process; bartlett: Bartlett's interval around the estimate.
+        Allowed: one of 'white', 'bartlett'.
+    detrend : {'none', 'constant', 'linear'}, default 'constant'
+        Removed from the record (each channel) first: nothing, its mean, or its least-squares line.
+        Allowed: one of 'none', 'constant', 'linear'.
+    confidence : float, default 0.95
+        Probability that the band covers the true value at a given lag.
+        Allowed: a float in the range (0, 1).
+    gaps : {'error', 'pairs'}, default 'error'
+        error: non-finite samples are an error; pairs: lag products over the pairs of samples both present,
+        normalised by the pair count.
+        Allowed: one of 'error', 'pairs'.
     """
 
     kind: ClassVar[str] = "Autocorrelation"
@@ -217,6 +242,27 @@ class CrossCorrelation(Estimator):
     - ``"bartlett"``: ``+- z sqrt(sum_j rho_xx(j) rho_yy(j) / N)`` over ``|j| <= max_lag``
       (Bartlett 1955; Box & Jenkins 1976 eq. (11.1.7), from memory), for two
       autocorrelated but independent series.
+
+    Parameters
+    ----------
+    max_lag : float or None, default None
+        Largest lag shown, in seconds.
+        Allowed: None (the first 2048 lags) or a float in the range (0, inf).
+    normalize : bool, default True
+        Divide by sqrt(r_xx(0) r_yy(0)) (correlation coefficient).
+        Allowed: True or False.
+    band : {'white', 'bartlett'}, default 'white'
+        white: for a white series; bartlett: for two autocorrelated series.
+        Allowed: one of 'white', 'bartlett'.
+    detrend : {'none', 'constant', 'linear'}, default 'constant'
+        Removed from the record (each channel) first: nothing, its mean, or its least-squares line.
+        Allowed: one of 'none', 'constant', 'linear'.
+    confidence : float, default 0.95
+        Probability that the band covers the true value at a given lag.
+        Allowed: a float in the range (0, 1).
+    gaps : {'error', 'pairs'}, default 'error'
+        error: non-finite samples are an error; pairs: lag products over the samples present in both channels.
+        Allowed: one of 'error', 'pairs'.
     """
 
     kind: ClassVar[str] = "CrossCorrelation"

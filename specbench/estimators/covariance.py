@@ -141,6 +141,18 @@ class Covariance(Estimator):
     ``gaps="pairs"``: non-finite samples are missing; each entry uses the samples where
     both channels are present (as ``pandas.DataFrame.cov`` does, pairwise complete), and
     the lag sums use the present pairs.
+
+    Parameters
+    ----------
+    max_lag : float or None, default None
+        Lags of the auto- and cross-covariances summed for the effective sample count.
+        Allowed: None (chosen from the data (Geyer 1992)) or a float in the range (0, inf).
+    confidence : float, default 0.95
+        Probability that each interval covers the true covariance.
+        Allowed: a float in the range (0, 1).
+    gaps : {'error', 'pairs'}, default 'error'
+        error: non-finite samples are an error; pairs: use the samples present in both channels.
+        Allowed: one of 'error', 'pairs'.
     """
 
     kind: ClassVar[str] = "Covariance"

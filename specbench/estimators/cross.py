@@ -406,6 +406,33 @@ class CrossSpectrum(Estimator):
     two-channel signal without ``pair`` gives the pair ``(0, 1)``; ``pair="all"`` always
     gives the full matrix.
 
+    Parameters
+    ----------
+    window : str or tuple, default 'hann'
+        Taper applied to each segment: a name, or (name, parameter) for windows that take one.
+        Allowed: a window name such as 'hann' or a tuple (name, parameter) such as ('kaiser', 8.6).
+    segment_length : int, default 1024
+        Samples per segment: longer gives finer resolution and fewer averages.
+        Allowed: an integer in the range [4, inf).
+    overlap : float, default 0.5
+        Fraction of each segment shared with the next.
+        Allowed: a float in the range [0, 1).
+    detrend : {'none', 'constant', 'linear'}, default 'constant'
+        Removed from each segment before windowing: nothing, its mean, or its least-squares line.
+        Allowed: one of 'none', 'constant', 'linear'.
+    scaling : {'density', 'spectrum'}, default 'density'
+        density: unit^2/Hz; spectrum: unit^2. Coherence, phase and gain do not depend on it.
+        Allowed: one of 'density', 'spectrum'.
+    nfft : int or None, default None
+        FFT length per segment (>= segment length; zero padding interpolates).
+        Allowed: None (no zero padding) or an integer in the range [2, 16777216].
+    confidence : float, default 0.95
+        Probability that the band covers the true spectrum at a given frequency.
+        Allowed: a float in the range (0, 1).
+    gaps : {'error', 'skip'}, default 'error'
+        error: non-finite samples are an error; skip: leave out segments that touch them.
+        Allowed: one of 'error', 'skip'.
+
     Examples
     --------
     >>> import numpy as np, specbench as sb

@@ -261,16 +261,37 @@ class Welch(SpectralEstimator):
 
     Parameters
     ----------
-    window : str or tuple
+    window : str or tuple, default 'hann'
         Taper of each segment, e.g. ``"hann"`` or ``("kaiser", 8.6)``.
-    segment_length : int
+        Allowed: a window name such as 'hann' or a tuple (name, parameter) such as ('kaiser', 8.6).
+    segment_length : int, default 1024
         Samples per segment; the frequency resolution is ``ENBW * fs / segment_length``.
-    overlap : float
+        Allowed: an integer in the range [4, inf).
+    overlap : float, default 0.5
         Fraction of a segment shared with the next, in [0, 1).
-    average : {"mean", "median"}
-    gaps : {"error", "skip"}
+        Allowed: a float in the range [0, 1).
+    average : {'mean', 'median'}, default 'mean'
+        mean: most stable for stationary noise; median: robust to transients.
+        Allowed: one of 'mean', 'median'.
+    detrend : {'none', 'constant', 'linear'}, default 'constant'
+        Removed from each segment before windowing: nothing, its mean, or its least-squares line.
+        Allowed: one of 'none', 'constant', 'linear'.
+    scaling : {'density', 'spectrum'}, default 'density'
+        density: unit^2/Hz (noise levels); spectrum: unit^2 (a sine of amplitude A reads A^2/2).
+        Allowed: one of 'density', 'spectrum'.
+    sides : {'auto', 'onesided', 'twosided'}, default 'auto'
+        auto: one-sided for real data, two-sided for complex data.
+        Allowed: one of 'auto', 'onesided', 'twosided'.
+    nfft : int or None, default None
+        FFT length per segment (>= segment length; zero padding interpolates).
+        Allowed: None (no zero padding) or an integer in the range [2, 16777216].
+    confidence : float, default 0.95
+        Probability that the band covers the true spectrum at a given frequency.
+        Allowed: a float in the range (0, 1).
+    gaps : {'error', 'skip'}, default 'error'
         ``"skip"`` leaves out the segments that touch a non-finite sample, counts them
         (``spectrum.info["segments_skipped"]``) and computes the dof from the segments used.
+        Allowed: one of 'error', 'skip'.
 
     Examples
     --------
@@ -349,6 +370,27 @@ class Periodogram(SpectralEstimator):
     Finest resolution and 2 degrees of freedom per bin (1 at DC and Nyquist): the
     relative standard error is 100 %, whatever the record length.  Equals
     ``scipy.signal.periodogram`` for the same settings.
+
+    Parameters
+    ----------
+    window : str or tuple, default 'boxcar'
+        Taper applied to each segment: a name, or (name, parameter) for windows that take one.
+        Allowed: a window name such as 'hann' or a tuple (name, parameter) such as ('kaiser', 8.6).
+    detrend : {'none', 'constant', 'linear'}, default 'constant'
+        Removed from each segment before windowing: nothing, its mean, or its least-squares line.
+        Allowed: one of 'none', 'constant', 'linear'.
+    scaling : {'density', 'spectrum'}, default 'density'
+        density: unit^2/Hz (noise levels); spectrum: unit^2 (a sine of amplitude A reads A^2/2).
+        Allowed: one of 'density', 'spectrum'.
+    sides : {'auto', 'onesided', 'twosided'}, default 'auto'
+        auto: one-sided for real data, two-sided for complex data.
+        Allowed: one of 'auto', 'onesided', 'twosided'.
+    nfft : int or None, default None
+        FFT length (>= the number of samples; zero padding interpolates).
+        Allowed: None (no zero padding) or an integer in the range [2, 16777216].
+    confidence : float, default 0.95
+        Probability that the band covers the true spectrum at a given frequency.
+        Allowed: a float in the range (0, 1).
     """
 
     title: ClassVar[str] = "Periodogram (whole record)"
@@ -690,6 +732,36 @@ class Multitaper(SpectralEstimator):
 
     With adaptive weighting over several segments, the weights are computed once from
     the segment-averaged eigenspectra (our simplification).
+
+    Parameters
+    ----------
+    bandwidth : float, default 4.0
+        NW: the spectral window is 2NW bins wide; more NW allows more tapers.
+        Allowed: a float in the range [0.5, inf).
+    tapers : int or None, default None
+        Number of DPSS tapers K (at most 2NW); default 2NW - 1.
+        Allowed: None (2NW - 1) or an integer in the range [1, inf).
+    adaptive : bool, default True
+        Thomson's adaptive weighting (reduces broadband leakage).
+        Allowed: True or False.
+    segment_length : int or None, default None
+        Apply the tapers to non-overlapping segments of this length and average.
+        Allowed: None (whole record) or an integer in the range [8, inf).
+    detrend : {'none', 'constant', 'linear'}, default 'constant'
+        Removed from each segment before windowing: nothing, its mean, or its least-squares line.
+        Allowed: one of 'none', 'constant', 'linear'.
+    scaling : {'density', 'spectrum'}, default 'density'
+        density: unit^2/Hz (noise levels); spectrum: unit^2 (a sine of amplitude A reads A^2/2).
+        Allowed: one of 'density', 'spectrum'.
+    sides : {'auto', 'onesided', 'twosided'}, default 'auto'
+        auto: one-sided for real data, two-sided for complex data.
+        Allowed: one of 'auto', 'onesided', 'twosided'.
+    nfft : int or None, default None
+        FFT length (>= the tapered length; zero padding interpolates).
+        Allowed: None (no zero padding) or an integer in the range [2, 16777216].
+    confidence : float, default 0.95
+        Probability that the band covers the true spectrum at a given frequency.
+        Allowed: a float in the range (0, 1).
     """
 
     title: ClassVar[str] = "Thomson multitaper"
@@ -849,6 +921,30 @@ class Correlogram(SpectralEstimator):
     ``info["line_bandwidth_hz"]`` holds ``fs / sum w_k (1 - |k|/N)``.  Parzen and Bartlett lag windows
     never give negative estimates; Hann and Hamming can, and a warning then says so.
     Real data only.
+
+    Parameters
+    ----------
+    max_lag : int, default 256
+        Largest lag M of the autocovariance used; resolution is about fs/M.
+        Allowed: an integer in the range [1, inf).
+    lag_window : {'parzen', 'bartlett', 'hann', 'hamming'}, default 'parzen'
+        Taper of the autocovariance; parzen and bartlett keep the estimate positive.
+        Allowed: one of 'parzen', 'bartlett', 'hann', 'hamming'.
+    detrend : {'none', 'constant', 'linear'}, default 'constant'
+        Removed from the record first: nothing, its mean, or its least-squares line.
+        Allowed: one of 'none', 'constant', 'linear'.
+    scaling : {'density', 'spectrum'}, default 'density'
+        density: unit^2/Hz (noise levels); spectrum: unit^2 (a sine of amplitude A reads A^2/2).
+        Allowed: one of 'density', 'spectrum'.
+    sides : {'auto', 'onesided', 'twosided'}, default 'auto'
+        auto: one-sided for real data, two-sided for complex data.
+        Allowed: one of 'auto', 'onesided', 'twosided'.
+    nfft : int or None, default None
+        FFT length (> max_lag); default the power of two >= 2 max_lag.
+        Allowed: None (no zero padding) or an integer in the range [2, 16777216].
+    confidence : float, default 0.95
+        Probability that the band covers the true spectrum at a given frequency.
+        Allowed: a float in the range (0, 1).
     """
 
     title: ClassVar[str] = "Blackman-Tukey (correlogram)"

@@ -150,6 +150,9 @@ def split_window(value: Any) -> tuple[str, tuple] | None:
 class Window(Constraint):
     """Constraint for a window value: a table name or ``(name, params...)``."""
 
+    def doc_type(self) -> str:
+        return "str or tuple"
+
     def check(self, value: Any) -> Any:
         parts = split_window(value)
         if parts is None:

@@ -57,6 +57,9 @@ class TauGrid(Options):
     10, 20, 50, ...) or a tuple of averaging times in seconds (mapped to the nearest whole
     cluster size at the data's rate)."""
 
+    def doc_type(self) -> str:
+        return "{" + ", ".join(repr(v) for v in self.values) + "} or tuple of float"
+
     def check(self, value: Any) -> Any:
         if isinstance(value, str):
             return super().check(value)
@@ -233,6 +236,24 @@ class AllanDeviation(Estimator):
     Memory: the record is read in blocks of 65,536 samples; the cumulative sums are
     rebuilt per block from one checkpoint per block, so memory is bounded by a few dozen
     blocks (it grows with log2 of the record length), never by the record.
+
+    Parameters
+    ----------
+    taus : {'octave', 'decade'} or tuple of float, default 'octave'
+        octave: cluster sizes 1, 2, 4, ...; decade: 1, 2, 5, 10, ...; or a tuple of times in seconds.
+        Allowed: one of 'octave', 'decade', or a tuple of increasing, distinct averaging times in seconds (> 0).
+    overlapping : bool, default True
+        Average every difference (overlapping estimate, more dof) or only non-overlapping clusters.
+        Allowed: True or False.
+    input : {'rate', 'angle'}, default 'rate'
+        rate: the samples are a rate (deg/s, m/s^2); angle: they are its integral (deg, m/s).
+        Allowed: one of 'rate', 'angle'.
+    noise : {'auto', 'quantization', 'white', 'bias_instability', 'random_walk'}, default 'auto'
+        Power-law noise type behind the dof: auto identifies it from the local slope of the estimate.
+        Allowed: one of 'auto', 'quantization', 'white', 'bias_instability', 'random_walk'.
+    confidence : float, default 0.683
+        Probability that the interval covers the true deviation at a given averaging time.
+        Allowed: a float in the range (0, 1).
     """
 
     kind: ClassVar[str] = "AllanDeviation"
