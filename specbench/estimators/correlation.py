@@ -20,6 +20,7 @@ from scipy import stats
 
 from .._errors import InputError
 from ._base import Estimator
+from ._channels import select_channels
 from ._common import Timer, confidence_field, detrend_field, nonfinite_error, restore_shape, zero_variance_error
 from ._cost import lag_cost
 from ._engine import as_2d, expect_passes, lagged_products, trend_coefficients
@@ -283,53 +284,13 @@ class CrossCorrelation(Estimator):
     def __call__(self, x: Any, y: Any = None, *, fs: float | None = None,
                  pair: tuple[int | str, int | str] | None = None) -> Correlation:
         """Cross-correlate ``x`` and ``y``, or two channels of ``x`` chosen by ``pair``."""
-        sx = as_samples(x, fs)
-        if y is not None:
-            sy = as_samples(y, fs if fs is not None else sx.fs)
-            if sy.fs != sx.fs:
-                raise InputError(
-                    f"The two signals have different sample rates ({sx.fs:g} and {sy.fs:g} Hz). "
-                    "Resample one of them first."
-                )
-            a, b = as_2d(sx.data), as_2d(sy.data)
-            if a.shape[0] != 1 or b.shape[0] != 1:
-                raise InputError("Pass one channel as x and one as y (or one multichannel x with pair=).")
-            if a.shape[-1] != b.shape[-1]:
-                raise InputError(
-                    f"x has {a.shape[-1]} samples and y has {b.shape[-1]}; cross-correlation "
-                    "needs simultaneous records of equal length. Cut both to the same span."
-                )
-            names = ((sx.channels or ("x",))[0], (sy.channels or ("y",))[0])
-            units = (sx.unit if isinstance(sx.unit, str) else sx.unit[0],
-                     sy.unit if isinstance(sy.unit, str) else sy.unit[0])
-        else:
-            data = as_2d(sx.data)
-            chans = sx.channels or tuple(str(i) for i in range(data.shape[0]))
-            if pair is None:
-                if data.shape[0] != 2:
-                    raise InputError(
-                        f"The data has {data.shape[0]} channel(s); say which two to use with "
-                        f"pair=(a, b) (names {list(chans)} or indices), or pass y=."
-                    )
-                pair = (0, 1)
-            idx = []
-            for p in pair:
-                if isinstance(p, str):
-                    if p not in chans:
-                        raise InputError(f"No channel named {p!r}; the channels are {list(chans)}.")
-                    idx.append(chans.index(p))
-                else:
-                    if not -data.shape[0] <= int(p) < data.shape[0]:
-                        raise InputError(f"Channel index {p} is out of range for {data.shape[0]} channels.")
-                    idx.append(int(p))
-            a, b = data[idx[0]][None, :], data[idx[1]][None, :]
-            names = (chans[idx[0]], chans[idx[1]])
-            u = sx.unit
-            units = (u, u) if isinstance(u, str) else (u[idx[0]], u[idx[1]])
+        ch = select_channels("CrossCorrelation", x, y, fs, pair, allow_matrix=False)
+        a, b = ch.data[0][None, :], ch.data[1][None, :]
+        names, units = ch.names, ch.units
         if np.iscomplexobj(a) or np.iscomplexobj(b):
             raise InputError("CrossCorrelation supports real data only.")
         n = a.shape[-1]
-        m = _max_lag_samples("CrossCorrelation", self.max_lag, sx.fs, n)
+        m = _max_lag_samples("CrossCorrelation", self.max_lag, ch.fs, n)
         pairs = None
         if self.gaps == "pairs" and (_has_nonfinite(a) or _has_nonfinite(b)):
             with Timer() as t:
@@ -366,11 +327,11 @@ class CrossCorrelation(Estimator):
             f"{units[0]}*{units[1]}" if units[0] != units[1] else power_unit(units[0])
         )
         return Correlation(
-            lag=np.arange(-m, m + 1) / sx.fs,
+            lag=np.arange(-m, m + 1) / ch.fs,
             value=value,
             lower=-half,
             upper=half,
-            fs=sx.fs,
+            fs=ch.fs,
             n=n,
             estimator=self,
             channels=names,

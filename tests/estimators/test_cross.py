@@ -389,3 +389,34 @@ def test_streams_without_copying_the_record():
     _, peak32 = tracemalloc.get_traced_memory()
     tracemalloc.stop()
     assert peak32 < 12 * 2**20, peak32 / 2**20
+
+
+@pytest.mark.parametrize("estimator", [sb.CrossSpectrum(segment_length=256), sb.CrossCorrelation(max_lag=10)],
+                         ids=["CrossSpectrum", "CrossCorrelation"])
+def test_both_cross_estimators_resolve_channels_with_one_set_of_messages(estimator):
+    # one function (estimators/_channels.select_channels) resolves x, y, fs and pair for both
+    rng = np.random.default_rng(21)
+    sig = sb.Signal(rng.standard_normal((2, 4096)), fs=100.0, channels=["a", "b"])
+    three = sb.Signal(rng.standard_normal((3, 4096)), fs=100.0, channels=["a", "b", "c"])
+    owner = type(estimator).__name__
+    cases = [
+        (lambda: estimator(sig, pair=("a", "c")),
+         r"No channel named 'c'; the channels are \['a', 'b'\]\. Name one of them in pair=\(a, b\)"),
+        (lambda: estimator(sig, pair=(0, 5)), r"Channel index 5 is out of range for data with 2 channels; use 0 to 1"),
+        (lambda: estimator(sig, pair=("a", "a")), r"names channel 'a' twice; choose two different channels"),
+        (lambda: estimator(sig, pair="a"), r"pair= must name two channels, like pair=\('a', 'b'\)"),
+        (lambda: estimator(rng.standard_normal(4096), fs=100.0), rf"{owner} needs two channels, but the data has 1"),
+        (lambda: estimator(rng.standard_normal(4096), rng.standard_normal(4000), fs=100.0),
+         rf"x has 4096 samples and y has 4000; {owner} needs simultaneous records of equal length"),
+        (lambda: estimator(sb.Signal(sig.data[0], fs=100.0), sb.Signal(sig.data[1], fs=50.0)),
+         rf"x is sampled at 100 Hz and y at 50 Hz; {owner} needs simultaneous samples at one rate"),
+        (lambda: estimator(sig, sig.data[0], fs=100.0), rf"{owner}\(x, y\): x has 2 and y has 1 channels"),
+        (lambda: estimator(sig.data[0], sig.data[1], fs=100.0, pair=(0, 1)), rf"{owner}: give either y= or pair="),
+    ]
+    if owner == "CrossCorrelation":  # one pair only: three channels need pair=
+        cases.append((lambda: estimator(three), r"The data has 3 channels; say which two to use with pair=\(a, b\)"))
+    for call, message in cases:
+        with pytest.raises(sb.InputError, match=message):
+            call()
+    got = estimator(three, pair=("c", 0))
+    assert got.channels == ("c", "a")
