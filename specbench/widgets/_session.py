@@ -353,11 +353,19 @@ class Session:
             self._selected.popitem(last=False)
         return sig
 
+    @staticmethod
+    def depends(slot: Slot, sel: DataSelection | None) -> DataSelection | None:
+        """The part of ``sel`` that ``slot``'s result depends on: an analysis of every channel
+        (``channels="all"``) does not depend on the channel chosen for the others."""
+        if sel is None or slot.analysis.channels == "one":
+            return sel
+        return DataSelection("*", sel.fs, sel.span)
+
     def cached(self, slot: Slot, est: Any, sel: DataSelection) -> Any:
-        return self._results.get((slot.name, est, sel))
+        return self._results.get((slot.name, est, self.depends(slot, sel)))
 
     def _keep(self, slot: Slot, est: Any, sel: DataSelection, result: Any) -> None:
-        key = (slot.name, est, sel)
+        key = (slot.name, est, self.depends(slot, sel))
         if key in self._results:
             self._results.move_to_end(key)
             return
@@ -414,10 +422,15 @@ class Session:
         self.errors.pop("code", None)
         self.errors.pop("internal", None)
         sel_changed = sel != self.sel
+        # an analysis recomputes when its estimator or the part of the selection it depends
+        # on changes (a channel change leaves an analysis of every channel as it is)
         todo = [(s, s.wanted) for s in self.slots.values()
-                if sel_changed or s.wanted != s.est or (s.result is None and s.failed != (s.wanted, sel))]
+                if (sel_changed and self.depends(s, sel) != self.depends(s, self.sel)) or s.wanted != s.est
+                or (s.result is None and s.failed != (s.wanted, sel))]
         if not todo:
             # the controls ask for what is on screen: earlier failures no longer apply
+            if sel_changed and self.sel is not None:  # a selection no analysis depends on
+                self.sel = sel
             self.next_sel = None
             for s in self.slots.values():
                 s.next = None

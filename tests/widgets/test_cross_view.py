@@ -46,6 +46,24 @@ def test_pair_menus_redraw_without_recomputing(duct):
     assert "two different channels" in host.delay.value and host._shown.channels == ("downstream", "upstream")
 
 
+def test_a_channel_change_leaves_the_cross_result_and_a_span_change_recomputes_it(duct):
+    # the cross analysis computes every pair (channels="all"): the channel chosen for the
+    # PSD and autocorrelation is not among its inputs, so changing it costs nothing there
+    wb = Workbench(duct)
+    before, psd = wb.result("cross"), wb.result("psd")
+    wb.controls["channel"].value = "downstream"
+    assert wb.result("cross") is before
+    assert wb.result("psd") is not psd and wb.result("psd").channels == ("downstream",)
+    np.testing.assert_array_equal(wb.result("psd").value[0], sb.Welch()(duct.data[1], fs=duct.fs).value)
+    wb.controls["span"].value = (1.0, 20.0)
+    after = wb.result("cross")
+    assert after is not before
+    ref = sb.CrossSpectrum()(duct.data[:, int(duct.fs):int(20 * duct.fs)], fs=duct.fs, pair="all")
+    assert after.csd.shape == ref.csd.shape
+    wb.controls["channel"].value = "upstream"  # back: psd from its cache or computed, cross kept
+    assert wb.result("cross") is after and wb.result("psd").channels == ("upstream",)
+
+
 def test_settings_change_delay_band_and_bad_setting_keeps_the_last_view(duct):
     wb = Workbench(duct)
     host = wb.views["cross"]
