@@ -280,7 +280,9 @@ def _random_error(coh: np.ndarray, nd: np.ndarray) -> np.ndarray:
 
 @dataclass(frozen=True, kw_only=True, repr=False)
 class CrossSpectrum(Estimator):
-    """Welch-type averaged cross periodograms of two (or all) channels [W]_.
+    """Welch-type averaged cross periodograms of two (or all) channels.
+
+    Welch's averaging [1]_ applied to cross periodograms.
 
     Each channel is cut into segments of ``segment_length`` samples overlapping by
     ``overlap``; each segment is detrended, windowed and transformed once, and
@@ -332,6 +334,11 @@ class CrossSpectrum(Estimator):
     gaps : {'error', 'skip'}, default 'error'
         error: non-finite samples are an error; skip: leave out segments that touch them.
         Allowed: one of 'error', 'skip'.
+
+    References
+    ----------
+    .. [1] P. D. Welch, "The use of fast Fourier transform for the estimation of power
+       spectra," IEEE Trans. Audio Electroacoust. AU-15(2), 70-73, 1967.
 
     Examples
     --------

@@ -245,9 +245,9 @@ def _averaged_periodogram(
 
 @dataclass(frozen=True, kw_only=True, repr=False)
 class Welch(SpectralEstimator):
-    """Welch's overlapped segment averaging [1]_.
+    """Welch's overlapped segment averaging.
 
-    The record is cut into segments of ``segment_length`` samples that overlap by the
+    Welch's method [1]_: the record is cut into segments of ``segment_length`` samples that overlap by the
     fraction ``overlap`` (``noverlap = floor(overlap * segment_length)`` samples); each is
     detrended, windowed and Fourier transformed, and the periodograms are averaged (mean,
     or median for robustness to transients).  For the same settings it equals
@@ -292,6 +292,11 @@ class Welch(SpectralEstimator):
         ``"skip"`` leaves out the segments that touch a non-finite sample, counts them
         (``spectrum.info["segments_skipped"]``) and computes the dof from the segments used.
         Allowed: one of 'error', 'skip'.
+
+    References
+    ----------
+    .. [1] P. D. Welch, "The use of fast Fourier transform for the estimation of power
+       spectra," IEEE Trans. Audio Electroacoust. AU-15(2), 70-73, 1967.
 
     Examples
     --------
@@ -716,8 +721,9 @@ def _multitaper_cost(est: Any, n: int, c: int, itemsize: int) -> dict:
 
 @dataclass(frozen=True, kw_only=True, repr=False)
 class Multitaper(SpectralEstimator):
-    """Thomson's multitaper estimate with discrete prolate spheroidal (DPSS) tapers [2]_.
+    """Thomson's multitaper estimate with discrete prolate spheroidal (DPSS) tapers.
 
+    Thomson's method [1]_.
     ``tapers`` orthogonal tapers of time-half-bandwidth ``bandwidth`` (NW) each give an
     eigenspectrum; their average has ``2K`` degrees of freedom (equal weights) or the
     frequency-dependent dof of Thomson's adaptive weights.  The spectral window is about
@@ -762,6 +768,11 @@ class Multitaper(SpectralEstimator):
     confidence : float, default 0.95
         Probability that the band covers the true spectrum at a given frequency.
         Allowed: a float in the range (0, 1).
+
+    References
+    ----------
+    .. [1] D. J. Thomson, "Spectrum estimation and harmonic analysis," Proc. IEEE 70(9),
+       1055-1096, 1982.
     """
 
     title: ClassVar[str] = "Thomson multitaper"
@@ -908,8 +919,9 @@ LAG_WINDOWS = ("parzen", "bartlett", "hann", "hamming")
 
 @dataclass(frozen=True, kw_only=True, repr=False)
 class Correlogram(SpectralEstimator):
-    """Blackman-Tukey lag-window (correlogram) estimate [3]_.
+    """Blackman-Tukey lag-window (correlogram) estimate.
 
+    The method of Blackman and Tukey [1]_.
     The biased autocovariance up to ``max_lag`` samples, tapered by a lag window
     ``w_k``, is Fourier transformed: ``S(f) = dt sum_{|k|<=M} w_k r_k e^{-i 2 pi f k dt}``.
     Degrees of freedom ``2 N / sum_k w_k^2`` and bandwidth ``B_W = fs / sum_k w_k^2``
@@ -945,6 +957,10 @@ class Correlogram(SpectralEstimator):
     confidence : float, default 0.95
         Probability that the band covers the true spectrum at a given frequency.
         Allowed: a float in the range (0, 1).
+
+    References
+    ----------
+    .. [1] R. B. Blackman and J. W. Tukey, *The Measurement of Power Spectra*, Dover, 1958.
     """
 
     title: ClassVar[str] = "Blackman-Tukey (correlogram)"
