@@ -205,7 +205,13 @@ def _refine(j: int, n: int, systems: dict, base: np.ndarray, u0: np.ndarray, buf
         if _dot(np.multiply(weights, y, out=wbuf), h) < 0:
             y = np.negative(y, out=y)
         # h = y / |y|_w (y is the solver's buffer, not h)
-        h = np.divide(y, math.sqrt(_dot(np.multiply(weights, y, out=wbuf), y)), out=store)
+        ynorm = math.sqrt(_dot(np.multiply(weights, y, out=wbuf), y))
+        h = np.divide(y, ynorm, out=store)
+        # (A - sigma) y = h_old, so |A h - sigma h| = |h_old| / |y| bounds the residual of
+        # the new h (its Rayleigh quotient can only lower it): below the threshold, the
+        # residual pass of the next round would stop anyway -- skip it (same bits)
+        if math.sqrt(norm2) / ynorm / scale < 0.5e-13:
+            break
     return h
 
 
