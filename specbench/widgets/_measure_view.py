@@ -27,7 +27,8 @@ import numpy as np
 
 from .._errors import SpecbenchError
 from ._measure import MeasureState, Readings, harmonic_band
-from ._style import MARKER, MARKER_BAND_OPACITY, gapped
+from ._merit import duration
+from ._style import AXIS_LABEL, MARKER, MARKER_BAND_OPACITY, gapped
 from ._views import fmt
 
 __all__ = ["MeasureLayer", "MeasurePanel", "AdvisePanel"]
@@ -53,18 +54,20 @@ class MeasureLayer:
                               fill_colors=[MARKER], fill_opacities=[MARKER_BAND_OPACITY], opacities=[0.0, 0.0],
                               stroke_width=0.0, enable_hover=False, apply_clip=True,
                               scales={"x": view.xs, "y": self.unit_y})
-        self.edges = bq.Lines(x=np.zeros((2, 2)), y=np.zeros((2, 2)), colors=[MARKER], stroke_width=1.2,
-                              enable_hover=False, scales={"x": view.xs, "y": self.unit_y}, visible=False)
-        self.harmonics = bq.Lines(x=np.zeros((1, 2)), y=np.zeros((1, 2)), colors=[MARKER], line_style="dotted",
-                                  stroke_width=1.2, enable_hover=False, visible=False,
+        self.edges = bq.Lines(apply_clip=True, x=np.ones((2, 2)), y=np.zeros((2, 2)), colors=[MARKER],
+                              stroke_width=1.2, enable_hover=False, visible=False,
+                              scales={"x": view.xs, "y": self.unit_y})
+        self.harmonics = bq.Lines(apply_clip=True, x=np.ones((1, 2)), y=np.zeros((1, 2)), colors=[MARKER],
+                                  line_style="dotted", stroke_width=1.2, enable_hover=False, visible=False,
                                   scales={"x": view.xs, "y": self.unit_y})
-        self.harmonic_labels = bq.Label(x=np.zeros(0), y=np.zeros(0), text=[], colors=[MARKER], default_size=11,
-                                        x_offset=3, align="start", scales={"x": view.xs, "y": self.unit_y})
-        self.peak = bq.Scatter(x=np.zeros(0), y=np.zeros(0), marker="arrow", colors=[MARKER],
+        self.harmonic_labels = bq.Label(apply_clip=True, x=np.zeros(0), y=np.zeros(0), text=[], colors=[MARKER],
+                                        default_size=11, x_offset=3, align="start",
+                                        scales={"x": view.xs, "y": self.unit_y})
+        self.peak = bq.Scatter(apply_clip=True, x=np.zeros(0), y=np.zeros(0), marker="arrow", colors=[MARKER],
                                stroke="white", default_size=70, enable_hover=False, visible=False,
                                scales={"x": view.xs, "y": view.ys})
-        self.peak_label = bq.Label(x=np.zeros(0), y=np.zeros(0), text=[], colors=[MARKER], default_size=11,
-                                   y_offset=-12, align="middle", font_weight="bold",
+        self.peak_label = bq.Label(apply_clip=True, x=np.zeros(0), y=np.zeros(0), text=[], colors=[MARKER],
+                                   default_size=11, y_offset=-12, align="middle", font_weight="bold",
                                    scales={"x": view.xs, "y": view.ys})
         view.layers.append(self)
         view.extra_tools["band"] = self._brush
@@ -73,24 +76,31 @@ class MeasureLayer:
         view.tool.options = [*opts, ("band", "band")]
         view.tool.tooltips = [*tips, "Drag across the plot to set the band cursor: its RMS, power and "
                                      "interval appear in the measurements table."]
-        view.tool.style.button_width = "52px"
+        view.tool.style.button_width = "40px"
+        view.reset.layout.width, view.reset.layout.flex = "58px", "0 0 58px"
+        view.tool.add_class("sb-tool-compact")
+        view.reset.add_class("sb-tool-compact-button")
 
     # -- tool --------------------------------------------------------------------------
     def _brush(self):
         sel = bq.interacts.BrushIntervalSelector(scale=self.view.xs, marks=[], color=MARKER)
-        sel.observe(self._brushed, names="brushing")
+        # the front end may send the end of the drag before or after the last selection
+        sel.observe(self._brushed, names=["brushing", "selected"])
         self._selector = sel
         return sel
 
     def _brushed(self, change) -> None:
-        if change["new"]:  # still dragging
+        if self._selector.brushing:  # still dragging
             return
         sel = self._selector.selected
         if sel is None or len(sel) != 2:
             return
-        a, b = float(sel[0]), float(sel[1])
-        if a != b:
+        # a dragged band reads as a person would type it: 4 significant digits
+        a, b = (float(f"{float(v):.4g}") for v in sel)
+        if a != b and self.state.band != (min(a, b), max(a, b)):
             self.on_band(a, b)
+            # a fresh selector: the brush's own rectangle goes, the band cursor's shade stays
+            self.view._set_tool()
 
     # -- the layer protocol of SpectrumView ----------------------------------------------
     def marks(self) -> list:
@@ -108,7 +118,10 @@ class MeasureLayer:
             m.scales = {"x": v.xs, "y": v.ys}
         spec = v.result
         band = self.state.band
-        if band is not None and spec is not None:
+        lo, hi = v.visible_range()
+        lo = -math.inf if lo is None else float(lo)
+        hi = math.inf if hi is None else float(hi)
+        if band is not None and spec is not None and band[1] >= lo and band[0] <= hi:
             f1, f2 = band
             self.shade.x = np.array([f1, f2], dtype=float)
             self.shade.y = np.array([[1.0, 1.0], [0.0, 0.0]])
@@ -138,14 +151,14 @@ class MeasureLayer:
         f0 = None if readings is None else readings.fundamental
         if f0 is not None and spec is not None and readings.harmonics:
             top = float(spec.freq[-1])
-            xs = [n * f0 for n in range(1, len(readings.harmonics) + 1) if n * f0 <= top]
-            if xs:
-                self.harmonics.x = np.array([[x, x] for x in xs], dtype=float)
-                self.harmonics.y = np.array([[0.0, 1.0]] * len(xs))
+            on = [(n, n * f0) for n in range(1, len(readings.harmonics) + 1) if n * f0 <= top and lo <= n * f0 <= hi]
+            if on:
+                self.harmonics.x = np.array([[x, x] for _, x in on], dtype=float)
+                self.harmonics.y = np.array([[0.0, 1.0]] * len(on))
                 self.harmonics.visible = True
-                self.harmonic_labels.x = np.array(xs, dtype=float)
-                self.harmonic_labels.y = np.full(len(xs), 0.95)
-                self.harmonic_labels.text = [f"{n}×" for n in range(1, len(xs) + 1)]
+                self.harmonic_labels.x = np.array([x for _, x in on], dtype=float)
+                self.harmonic_labels.y = np.full(len(on), 0.95)
+                self.harmonic_labels.text = [f"{n}×" for n, _ in on]
                 return
         self.harmonics.visible = False
         self.harmonic_labels.text = []
@@ -321,7 +334,7 @@ class MeasurePanel:
             se = "" if not math.isfinite(t.freq_stderr) else f" ± {fmt(t.freq_stderr, 2)}"
             parts.append(f"<b>peak {fmt(t.freq, 7)}{se} Hz</b> {fmt(t.amplitude)} {_unit(t.unit)} RMS "
                          f"<span class='sb-muted'>SNR {t.snr_db:.1f} dB</span>")
-        return " &nbsp;·&nbsp; ".join(parts)
+        return "<br>".join(parts)
 
 
 class AdvisePanel:
@@ -412,25 +425,44 @@ class AdvisePanel:
             self.chart_box.children = []
             return a
         self.note.value = (f"<span class='sb-muted'>{len(a)} of {a.considered:,} settings meet the targets "
-                           f"(scored in {fmt(self.seconds * 1e3, 3)} ms); best first.</span>")
+                           f"(scored in {duration(self.seconds)}); best first.</span>")
         rows = []
         for c in a.candidates:
-            f = c.figures
-            b = W.Button(description=f"apply #{c.rank}", layout=W.Layout(width="auto"),
+            b = W.Button(description=f"apply #{c.rank}", layout=W.Layout(width="84px", flex="0 0 84px"),
                          tooltip=f"Use sb.{c.estimator!r}: every view and readout updates.")
             b.add_class("sb-advise-apply")
             b.on_click(lambda _, est=c.estimator: self._apply(est))
-            text = W.HTML(f"<code>{html.escape(repr(c.estimator))}</code> <span class='sb-muted'>"
-                          f"{fmt(f['resolution_hz'])} Hz · band {f['band_db']:.2f} dB · sidelobe "
-                          f"{f['sidelobe_db']:.0f} dB · ~{fmt(f['seconds'], 2)} s — {html.escape(c.reason)}</span>")
+            text = W.HTML(f"<code>{html.escape(repr(c.estimator))}</code> <span class='sb-muted'>— "
+                          f"{html.escape(c.reason)}</span>")
             text.add_class("sb-advise-text")
             rows.append(gapped(W.HBox([b, text], layout=W.Layout(align_items="center")), "small"))
         self.list.children = rows
         try:
             fig = a.chart()
+            fig.axes = [ax for ax in fig.axes if type(ax).__name__ != "ColorAxis"]  # legend in words below
+            fig.fig_margin = dict(top=40, bottom=50, left=64, right=24)
+            for ax in fig.axes:  # the theme's text colour, as in the views
+                ax.label_color = AXIS_LABEL
+            # look at the candidates: the settings far from every target stay behind, off the edges
+            res = np.array([c.figures["resolution_hz"] for c in a.candidates])
+            bands = np.array([c.figures["band_db"] for c in a.candidates])
+            t = self.targets()
+            top = max(float(bands.max()) * 2.5, 3.0 * (t["band_db"] or 0.0))
+            xs, ys = fig.axes[0].scale, fig.axes[1].scale
+            ys.min, ys.max = 0.0, top
+            want = [float(res.min()) / 8, float(res.max()) * 8]
+            if t["resolution"]:
+                want = [min(want[0], t["resolution"] / 3), max(want[1], t["resolution"] * 3)]
+            xs.min, xs.max = want
+            fig.title_style = {"fill": "var(--jp-ui-font-color1)", "font-size": "13px"}
             fig.layout.height = "320px"
             fig.add_class("sb-advise-figure")
-            self.chart_box.children = [fig]
+            legend = W.HTML("<span class='sb-muted'>Each dot is a setting: resolution against the width of its "
+                            "confidence band. Grey: misses a target. Coloured: meets every target, light blue "
+                            "(sidelobe -20 dB, more leakage) to deep blue (-120 dB). Ring: #1. Dashed: the "
+                            "targets.</span>")
+            legend.add_class("sb-advise-legend")
+            self.chart_box.children = [W.VBox([fig, legend], layout=W.Layout(width="100%"))]
         except SpecbenchError:
             self.chart_box.children = []
         return a

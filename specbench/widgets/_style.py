@@ -151,6 +151,7 @@ _CSS = """
 .sb-workbench .sb-mt-wide { grid-column: 1 / -1; white-space: normal; }
 .sb-workbench .sb-tone-button { height: 24px; line-height: 22px; padding: 0 8px; justify-self: start;
   font-variant-numeric: tabular-nums; border-left: 3px solid #c4309a; }
+.sb-workbench .sb-tool-compact .widget-toggle-button, .sb-workbench .sb-tool-compact-button { padding: 0 2px; }
 .sb-workbench .sb-advise-text { white-space: normal; min-width: 0; flex: 1 1 auto; }
 .sb-workbench .sb-advise-text code { font-size: var(--jp-code-font-size, 12px); }
 .sb-workbench .sb-merit-grid { display: grid; grid-template-columns: repeat(auto-fill, minmax(130px, 1fr));

@@ -99,10 +99,15 @@ def test_tone_click_centres_and_harmonics_follow(bench):
     assert host.measure.fundamental == second.freq
     labels = [h.label for h in host.measure.last.harmonics]
     assert labels[1].startswith("2×") and f"{2 * second.freq:.6g}" in labels[1]
-    assert host.layer.harmonics.visible and np.asarray(host.layer.harmonics.x).shape == (3, 2)
+    assert host.layer.harmonics.visible  # only the cursors inside the zoomed range are drawn
+    assert list(host.layer.harmonic_labels.text) == ["1×"]
+    assert np.asarray(host.layer.harmonics.x).ravel()[0] == pytest.approx(second.freq)
     ymax_fit = view.ys.max
     host.table.fit_y.value = False  # keep the whole estimate's y range while zoomed
     assert view.ys.max > ymax_fit
+    view.reset_zoom()
+    assert np.asarray(host.layer.harmonics.x).shape == (3, 2) and list(host.layer.harmonic_labels.text) == [
+        "1×", "2×", "3×"]
 
 
 def test_frozen_cell_reproduces_the_table(bench, record):
