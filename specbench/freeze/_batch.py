@@ -327,10 +327,14 @@ def estimate_file(args: argparse.Namespace, progress: _Progress) -> dict:
         kind = "memory map" if isinstance(getattr(sig.data, "base", None), np.memmap) or isinstance(
             sig.data, np.memmap) else "in memory"
         ph.note = f"{root.n_channels} x {root.n_samples:,} samples at {root.fs:.9g} Hz ({kind})"
+        every = sig  # every channel at the selection's rate and span, for cross-channel analyses
+        if selection.channel is not None and any(w.channels == "all" for w in runnable.values()):
+            every = Selection(span=selection.span, fs=selection.fs).apply(apply_steps(root, steps))
     fp_line = _fingerprint_report(settings, sig)
     progress.say(fp_line)
     if getattr(args, "scheduler", None):
         sig = _on_cluster(sig)
+        every = sig if every is sig else _on_cluster(every)
     for name, why in skipped.items():
         progress.say(f"skipped the analysis {name!r}: {why}.")
     total = sig.n_channels * sig.n_samples
@@ -340,10 +344,11 @@ def estimate_file(args: argparse.Namespace, progress: _Progress) -> dict:
     metas: dict[str, dict] = {}
     for name, writer in runnable.items():
         est = settings.analyses[name]
-        with progress.phase(f"estimating {est!r} on {sig.n_channels} x {sig.n_samples:,} samples", long) as ph, \
+        own = every if writer.channels == "all" else sig
+        with progress.phase(f"estimating {est!r} on {own.n_channels} x {own.n_samples:,} samples", long) as ph, \
                 reporting_progress(ph.blocks_done):
             opts = settings.options.get(name, {})
-            result = writer.run(est, sig, opts) if writer.run is not None else est(sig)
+            result = writer.run(est, own, opts) if writer.run is not None else est(own)
             if writer.describe is not None:
                 ph.note = writer.describe(result)
         meta = dict(base)

@@ -257,9 +257,10 @@ def _write_covariance(path, cov: Any, meta: dict) -> None:
 
 register_writer("CrossSpectrum", AnalysisWriter(
     write=_write_cross, run=_run_cross, metadata=_cross_meta,
-    describe=lambda r: f"{r[0].freq.size:,} frequencies" + (f", delay {r[1].value:.6g} s" if r[1] else "")))
+    describe=lambda r: f"{r[0].freq.size:,} frequencies" + (f", delay {r[1].value:.6g} s" if r[1] else ""),
+    channels="all"))
 register_plain_form(CrossSpectrum, _plain_analysis_lines)
 register_writer("Covariance", AnalysisWriter(
     write=_write_covariance, metadata=lambda c: dict(channels=list(c.channels), confidence=c.confidence),
-    describe=lambda c: f"{len(c.channels)} x {len(c.channels)} matrix"))
+    describe=lambda c: f"{len(c.channels)} x {len(c.channels)} matrix", channels="all"))
 _ = Covariance

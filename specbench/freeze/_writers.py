@@ -44,12 +44,17 @@ class AnalysisWriter:
     metadata : callable ``(result) -> dict``, optional
         Entries for the file's metadata (estimator, unit, confidence, ...); ``estimator``
         and ``estimator_dict`` are added when it does not set them.
+    channels : {"one", "all"}
+        ``"one"``: the analysis gets the selection (its channel, when it names one);
+        ``"all"``: every channel at the selection's rate and span (cross-channel analyses,
+        like the Workbench's ``channels = "all"``).
     """
 
     write: Callable[[Path, Any, dict], None]
     run: Callable[[Any, Any, dict], Any] | None = None
     describe: Callable[[Any], str] | None = None
     metadata: Callable[[Any], dict] | None = None
+    channels: str = "one"
 
 
 #: estimator kind -> how ``specbench estimate`` runs and writes it (spectral kinds fall back to

@@ -90,3 +90,38 @@ def test_batch_writes_cross_and_covariance(tmp_path):
     np.testing.assert_array_equal(table[:, cols.index("phase_upper_rad")], ref.phase_upper)
     cov_files = list(tmp_path.glob("cross.cov.*"))
     assert cov_files, list(tmp_path.iterdir())
+
+
+def test_batch_runs_the_workbench_cross_analysis_on_every_channel(tmp_path):
+    # Settings written from a Workbench whose data strip analyses one channel: the cross analysis
+    # still gets every channel (the Workbench's channels="all"), with its pair and delay band.
+    from specbench.cli import main
+    from specbench.freeze import save_state
+    from specbench.widgets import Workbench
+
+    rng = np.random.default_rng(31)
+    x = rng.standard_normal(30_000)
+    record = np.vstack([x, np.roll(x, 7) + 0.3 * rng.standard_normal(x.size), rng.standard_normal(x.size)])
+    path = tmp_path / "rig.csv"
+    np.savetxt(path, np.column_stack([np.arange(x.size) / 500.0, record.T]), fmt="%.17g", delimiter=",",
+               header="time [s],drive [V],response [V],spare [V]", comments="")
+    sig = sb.load(path, time_column="time")
+    wb = Workbench(sig, estimators={"cross": sb.CrossSpectrum(segment_length=1024)})
+    wb.controls["span"].value = (4.0, 56.0)
+    host = wb.views["cross"]
+    host.x_menu.value, host.y_menu.value = "drive", "response"
+    assert wb.channel == "drive"  # the data strip's channel: one channel for the PSD
+    settings = save_state(wb.freeze_state(), tmp_path / "rig.json")
+    out = tmp_path / "rig_out.csv"
+    assert main(["estimate", str(path), "-s", str(settings), "-o", str(out), "-q"]) == 0
+    cross_out = next(p for p in tmp_path.iterdir() if p.name.startswith("rig_out.cross"))
+    text = cross_out.read_text()
+    header = [ln for ln in text.splitlines() if ln.startswith("#")]
+    cols = text.splitlines()[len(header)].split(",")
+    table = np.loadtxt(cross_out, delimiter=",", comments="#", skiprows=len(header) + 1)
+    shown = host._shown
+    assert shown.channels == ("drive", "response")
+    np.testing.assert_array_equal(table[:, cols.index("coherence")], shown.coherence)
+    np.testing.assert_array_equal(table[:, cols.index("gain_upper")], shown.gain_upper)
+    delay = ast.literal_eval(next(ln for ln in header if ln.startswith("# delay:")).split(":", 1)[1].strip())
+    assert delay["value_s"] == pytest.approx(7 / 500.0, abs=0.05 / 500.0)
