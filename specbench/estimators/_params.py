@@ -23,6 +23,7 @@ __all__ = [
     "Constraint",
     "Interval",
     "Options",
+    "Subset",
     "Boolean",
     "Optional",
     "ParamSpec",
@@ -150,6 +151,26 @@ class Options(Constraint):
 
     def invalid_values(self) -> list[Any]:
         return ["no-such-option", 3, None]
+
+
+@dataclass(frozen=True)
+class Subset(Constraint):
+    """A non-empty tuple of distinct strings from a fixed set, kept in the set's order
+    (a list is accepted and becomes that tuple)."""
+
+    values: tuple[str, ...]
+
+    def check(self, value: Any) -> Any:
+        if isinstance(value, (list, tuple)) and value and all(isinstance(v, str) for v in value):
+            if len(set(value)) == len(value) and all(v in self.values for v in value):
+                return tuple(v for v in self.values if v in value)
+        raise ValueError
+
+    def describe(self) -> str:
+        return "a non-empty tuple of distinct names from " + ", ".join(repr(v) for v in self.values)
+
+    def invalid_values(self) -> list[Any]:
+        return [(), ("no-such-option",), (self.values[0], self.values[0]), self.values[0], None]
 
 
 @dataclass(frozen=True)

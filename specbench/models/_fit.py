@@ -27,7 +27,8 @@ from .._errors import InputError, SpecbenchError
 from ._allan import AllanDeviation, AllanResult
 from ._kalman import CAUTION, discrete_model
 
-__all__ = ["fit_noise", "NoiseModel", "Term", "Estimate", "NoiseFitError", "TERMS", "CAUTION"]
+__all__ = ["fit_noise", "rank_terms", "NoiseModel", "Term", "Estimate", "NoiseFitError", "TERMS", "CAUTION",
+           "CANDIDATES"]
 
 TERMS = ("white", "bias_instability", "random_walk", "gauss_markov", "quantization")
 _BI = 2.0 * math.log(2.0) / math.pi
@@ -266,8 +267,11 @@ def fit_noise(
     The fit is weighted least squares on the Allan variance with ``var = 2 sigma^4 / dof``
     (the chi-square variance of each estimate), iterated with the model's values in the
     weights, non-negative; the Gauss-Markov correlation time by a profile search.  Each
-    term's interval comes from the fit covariance ``(J' W J)^-1`` (delta method, on the
-    log of the variance-like parameter).  The Allan variances at neighbouring averaging
+    term's standard error comes from the fit covariance ``(J' W J)^-1`` (delta method); the
+    interval of a variance-like parameter theta (N^2, B^2, K^2, Q^2, sigma^2) is chi-square
+    with Satterthwaite's effective dof ``nu = 2 theta^2 / var(theta)`` (Satterthwaite 1946,
+    "An approximate distribution of estimates of variance components", Biometrics Bulletin
+    2(6), 110-114), that of the Gauss-Markov time normal on log T.  The Allan variances at neighbouring averaging
     times are correlated (they share the data), so the covariance is the sandwich
     ``B J' W S W J B`` (``B = (J' W J)^-1``) with ``S`` the covariance of the Allan
     variance estimates: their variances ``2 model^2 / dof`` and their correlation between
@@ -384,8 +388,18 @@ def fit_noise(
     params: dict[str, Any] = {}
     for i, name in enumerate(names):
         th, s = float(theta[i]), float(sd[i])
-        rel = s / th  # stderr of log(theta)
-        lo, hi = th * math.exp(-z * rel), th * math.exp(z * rel)
+        rel = s / th  # relative stderr of theta (a variance-like parameter)
+        # chi-square interval with Satterthwaite's effective dof nu = 2 theta^2 / var(theta):
+        # theta is a weighted sum of Allan variances (each scaled chi-square), and at the long
+        # averaging times that carry K or the Gauss-Markov sigma those have few dof, so its
+        # distribution is skewed; a normal interval on log(theta) misses more often below
+        # than above (measured: tests/models/test_fit.py coverage case)
+        nu = 2.0 / rel**2 if rel > 0 else math.inf
+        if math.isfinite(nu):
+            lo = th * nu / float(stats.chi2.ppf((1 + confidence) / 2, nu))
+            hi = th * nu / float(stats.chi2.ppf((1 - confidence) / 2, nu))
+        else:
+            lo = hi = th
         val = math.sqrt(th)
         se = 0.5 * val * rel
         if name == "gauss_markov":
@@ -403,6 +417,43 @@ def fit_noise(
         info={"correlation": corr, "labels": labels, "avar_correlation": corr_avar, "replicates": replicates,
               "seed": seed},
     )
+
+
+#: term sets :func:`rank_terms` tries, simplest first
+CANDIDATES = (
+    ("white",),
+    ("white", "random_walk"),
+    ("white", "bias_instability"),
+    ("white", "gauss_markov"),
+    ("white", "bias_instability", "random_walk"),
+    ("white", "gauss_markov", "random_walk"),
+)
+
+
+def rank_terms(allan: AllanResult, candidates: Any = CANDIDATES, *, channel: int | str = 0) -> list[tuple]:
+    """Term sets the Allan deviation supports, best first.
+
+    Each candidate is fitted without the between-tau correlation (``replicates=0``: fast);
+    the ones whose every term is identified and separable are ranked by Akaike's criterion
+    on the fit's weighted residuals, ``chi2 + 2 p`` (p parameters; Akaike 1974, "A new look
+    at the statistical model identification", IEEE Trans. Automatic Control 19(6)).  A set
+    ranked here can still be refused by the full fit (its intervals are wider): try them in
+    order.  Raises :class:`NoiseFitError` when no candidate fits.
+    """
+    scored = []
+    reasons = []
+    for terms in candidates:
+        try:
+            m = fit_noise(allan, terms=tuple(terms), channel=channel, replicates=0, check_input=False)
+        except NoiseFitError as e:
+            reasons.append(f"{'+'.join(terms)}: {e}")
+            continue
+        npar = len(terms) + (1 if "gauss_markov" in terms else 0)
+        scored.append((m.chi2_per_dof * m.fit_dof + 2 * npar, len(scored), tuple(terms)))
+    if not scored:
+        raise NoiseFitError("No term set can be fitted to this Allan deviation: " + " ".join(reasons[:1])
+                            + " Record longer, or choose the terms yourself.")
+    return [t for _, _, t in sorted(scored)]
 
 
 def _not_identified(name: str, th: float, s: float, up: float, tau: np.ndarray, others: np.ndarray,

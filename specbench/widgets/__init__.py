@@ -34,7 +34,10 @@ __all__ = ["Workbench", "Analysis", "SpectrumAnalysis", "CorrelationAnalysis", "
 
 def __getattr__(name):
     if name == "Workbench":
-        from . import _cross_view  # noqa: F401  (registers the cross-channel analysis)
+        from . import (
+            _cross_view,  # noqa: F401  (registers the cross-channel analysis)
+            _noise_view,  # noqa: F401  (registers the noise-model analysis)
+        )
         from .workbench import Workbench
 
         return Workbench

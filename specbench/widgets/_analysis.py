@@ -22,8 +22,9 @@ An analysis is one class.  It declares
 - ``overlays(shown)``: model curves it draws over other analyses' views, ``{analysis name:
   [Overlay, ...]}`` (e.g. a fitted noise model's PSD over the ``psd`` view);
 - ``settings_entry(est)``: the ``(estimator, options)`` its settings-file entry holds (default
-  ``(est, None)``; options are the analysis' JSON choices that are not estimator fields; the
-  plain numpy/scipy cell writes an analysis from these through
+  ``(est, None)``; options are the analysis' JSON choices that are not estimator fields;
+  ``(None, None)`` leaves the analysis out, when it does not apply to the data; the plain
+  numpy/scipy cell writes an analysis from these through
   ``freeze._scipy_form.register_plain_form``).
 
 Register a new one with :func:`register_analysis` (or pass ``analyses=`` to the Workbench);

@@ -12,6 +12,7 @@ constraint                                    control
 other ``Interval``                            entry
 ``Options``                                   drop-down
 ``Boolean``                                   check box
+``Subset``                                    a row of toggle buttons (at least one on)
 ``Optional(inner)``                           the inner control + an "auto" check box (None)
 ``Window``                                    window drop-down + parameter entries, shown only
                                               for windows that take parameters
@@ -35,7 +36,7 @@ from typing import Any
 import ipywidgets as W
 import traitlets
 
-from ..estimators._params import Boolean, Interval, Optional, Options, ParamSpec
+from ..estimators._params import Boolean, Interval, Optional, Options, ParamSpec, Subset
 from ..estimators.windows import WINDOWS, Window, split_window
 
 __all__ = [
@@ -43,6 +44,7 @@ __all__ = [
     "FieldControl",
     "ChoiceControl",
     "BoolControl",
+    "SubsetControl",
     "NumberControl",
     "PowerOfTwoControl",
     "OptionalControl",
@@ -268,6 +270,38 @@ class BoolControl(FieldControl):
 
     def _read(self):
         return bool(self.checkbox.value)
+
+
+class SubsetControl(FieldControl):
+    """One toggle button per choice; the value is the tuple of the chosen ones, in the
+    constraint's order.  Turning every button off gives ``()``, which the estimator refuses
+    (its message then shows beside the control)."""
+
+    def __init__(self, key: str, label: str, values, help: str = "", unit: str = "", *, value: Any = None,
+                 show_label: bool = True) -> None:
+        self._choices = tuple(values)
+        super().__init__(key, label, help, unit, value=value, show_label=show_label)
+
+    def _build(self):
+        self.toggles = [W.ToggleButton(value=False, description=c.replace("_", " "), tooltip=c,
+                                       layout=W.Layout(width="auto")) for c in self._choices]
+        for t in self.toggles:
+            self._listen(t)
+        box = W.HBox(self.toggles, layout=W.Layout(flex_flow="row wrap", flex="1 1 auto"))
+        box.add_class("sb-gap-small")
+        box.add_class("sb-subset")
+        return [box]
+
+    def _editors(self) -> list[W.Widget]:
+        return list(self.toggles)
+
+    def _show(self, value):
+        if isinstance(value, (tuple, list)):
+            for c, t in zip(self._choices, self.toggles):
+                _assign(t, value=c in value)
+
+    def _read(self):
+        return tuple(c for c, t in zip(self._choices, self.toggles) if t.value)
 
 
 class NumberControl(FieldControl):
@@ -599,6 +633,8 @@ def control_for(key: str, spec: ParamSpec, ctx: Context | None, value: Any = Non
         return ChoiceControl(key, spec.label, c.values, spec.help, spec.unit, value=value, show_label=show_label)
     if isinstance(c, Boolean):
         return BoolControl(key, spec.label, spec.help, spec.unit, value=value, show_label=show_label)
+    if isinstance(c, Subset):
+        return SubsetControl(key, spec.label, c.values, spec.help, spec.unit, value=value, show_label=show_label)
     if isinstance(c, Interval):
         if c.kind is int and spec.scale == "log2":
             return PowerOfTwoControl(key, spec, c, ctx, value=value, show_label=show_label)

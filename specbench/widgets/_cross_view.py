@@ -41,11 +41,7 @@ def _trace(freq, value, lower, upper, unit, lo, hi, log=False) -> Trace:
     interior = (red.index > 0) & (red.index < f.size - 1)
     yr = _yrange([y[interior], lo_env[interior], hi_env[interior]], log)
     if log:
-        # a lower bound of 0 (gain unknown below: incoherent bins) cannot sit on a log axis: the
-        # band then reaches the lowest value shown instead of leaving a hole in the band
-        floor = yr[0] if yr is not None else np.nan
-        lo_env = np.where(lo_env > 0, lo_env, np.where(hi_env > 0, np.minimum(floor, hi_env), np.nan))
-        y, hi_env = (np.where(q > 0, q, np.nan) for q in (y, hi_env))
+        y, lo_env, hi_env = (np.where(q > 0, q, np.nan) for q in (y, lo_env, hi_env))
     return Trace(x.astype(float), y.astype(float), lo_env.astype(float), hi_env.astype(float), unit, yr,
                  int(freq.size))
 
@@ -395,6 +391,12 @@ class CrossAnalysis(Analysis):
     def pin_text(self, est: Any, shown: Any) -> str:
         pair = f" ({shown.channels[0]} → {shown.channels[1]})" if shown is not None else ""
         return repr(est) + pair
+
+    def settings_entry(self, est: Any) -> tuple[Any, dict | None]:
+        # one channel: nothing to compare, and `specbench estimate` would refuse the entry
+        if self.last_result is None and self.single is not None:
+            return None, None
+        return est, None
 
     def freeze_lines(self, est: Any, data_var: str) -> list[str] | None:
         from ..freeze._describe import origin_call, py, wrap_comment

@@ -16,8 +16,8 @@ import math
 
 import ipywidgets as W
 
-__all__ = ["AXIS_LABEL", "BAND_OPACITY", "CURRENT", "MARKER", "MARKER_BAND_OPACITY", "PIN_BAND_OPACITY", "PIN_STYLES",
-           "PIN_MARKERS", "pin_look", "marker_path", "gapped", "style_sheet"]
+__all__ = ["ASYMPTOTE", "AXIS_LABEL", "BAND_OPACITY", "CURRENT", "MARKER", "MARKER_BAND_OPACITY", "MODEL",
+           "PIN_BAND_OPACITY", "PIN_STYLES", "PIN_MARKERS", "pin_look", "marker_path", "gapped", "style_sheet"]
 
 #: the current estimate (line and band): petrol blue
 CURRENT = "#1b7396"
@@ -114,6 +114,13 @@ STROKE_MARKERS = frozenset({"plus", "crosshair"})
 #: SVG dash arrays matching bqplot's line styles (for the swatches in the pin table and the export)
 DASH_ARRAY = {"solid": "", "dashed": "6,3", "dotted": "2,3", "dash_dotted": "6,3,2,3"}
 
+#: a fitted model's curve (over the Allan deviation and the PSD): electric violet, picked like the pins
+#: (3:1 on both themes, far in CIELAB from the estimate, the marker, every pin and the asymptote grey in
+#: all four visions; tests/widgets/test_look.py)
+MODEL = "#7a1df8"
+#: the straight-line asymptotes of single noise terms, and their labels: a neutral grey
+ASYMPTOTE = "#8a8f98"
+
 #: the type of the figures (axis ticks and labels) and of the exported pictures
 FONT_FAMILY = "var(--jp-ui-font-family, system-ui, sans-serif)"
 TICK_FONT_PX = 11
@@ -167,6 +174,17 @@ _CSS = """
 .sb-workbench .sb-pin-row .sb-pin-settings { color: var(--jp-ui-font-color2);
   font-family: var(--jp-code-font-family); font-size: var(--jp-code-font-size, 12px); }
 .sb-workbench .sb-view-title { font-weight: 600; }
+.sb-workbench table.sb-term-table { border-collapse: collapse; width: 100%; margin: 4px 0; }
+.sb-workbench table.sb-term-table th { text-align: left; font-weight: 600; color: var(--jp-ui-font-color2);
+  font-size: var(--jp-ui-font-size0, 11px); border-bottom: 1px solid var(--jp-border-color1); padding: 2px 6px; }
+.sb-workbench table.sb-term-table td { padding: 2px 6px; border-bottom: 1px solid var(--jp-border-color3, #eee); }
+.sb-workbench table.sb-term-table td.sb-num { font-variant-numeric: tabular-nums; white-space: nowrap; }
+.sb-workbench table.sb-term-table td, .sb-workbench table.sb-term-table th { overflow-wrap: normal; }
+.sb-workbench table.sb-term-table td:first-child, .sb-workbench table.sb-term-table th { white-space: nowrap; }
+.sb-workbench .sb-noise-table .widget-html-content { line-height: 1.45; }
+.sb-workbench .sb-noise-quality, .sb-workbench .sb-noise-filter { margin: 6px 0; }
+.sb-workbench .sb-noise-filter { font-variant-numeric: tabular-nums; overflow-wrap: anywhere; }
+.sb-workbench .sb-noise-caution { font-size: var(--jp-ui-font-size0, 11px); margin-top: 6px; }
 .sb-workbench .sb-gap-small { gap: 4px 6px; }
 .sb-workbench .sb-gap-medium { gap: 4px 12px; }
 .sb-workbench .sb-gap-wide { gap: 2px 18px; }

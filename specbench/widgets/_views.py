@@ -606,9 +606,7 @@ class SpectrumView(_TraceView):
                                                   "fitted noise model) over the estimate.")
         self.overlay_toggle.add_class("sb-overlay-toggle")
         self.overlay_toggle.observe(lambda ch: self.redraw(), names="value")
-        head = list(self.header.children)
-        head.insert(head.index(self.pin_band_toggle) + 1, self.overlay_toggle)
-        self.header.children = head
+        self.footer.children = [self.plot_as, self.freq_axis, self.overlay_toggle, self.readout]
 
     def set_overlays(self, overlays: list[Overlay]) -> None:
         """The model curves to draw over the estimate (drawn at the next :meth:`redraw`)."""

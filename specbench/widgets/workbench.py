@@ -728,7 +728,10 @@ class Workbench(W.VBox):
         extra, options = {}, {}
         for n, x in s.slots.items():
             if n not in ("psd", "acf"):
-                extra[n], opts = x.analysis.settings_entry(x.est)
+                est, opts = x.analysis.settings_entry(x.est)
+                if est is None:  # the analysis does not apply to this data (e.g. cross on one channel)
+                    continue
+                extra[n] = est
                 if opts:
                     options[n] = opts
         lines = {}

@@ -141,33 +141,32 @@ def test_imu_static_demo_true_terms_within_their_intervals():
 @pytest.mark.slow
 @pytest.mark.parametrize("case", ["white+random_walk", "white+gauss_markov"])
 def test_fitted_term_interval_coverage_monte_carlo(case):
-    """Coverage of the 68.3 % term intervals over simulated records (nominal vs empirical
-    printed in the report); each within 4 binomial standard errors + 0.03."""
+    """Coverage of the 68.3 % term intervals over 400 simulated records per case, each term
+    within 3 binomial standard errors (0.070) of nominal: a 0.54 coverage fails.
+
+    Measured (32 replicates each): white + random walk, 2000 records, N 0.674, K 0.707;
+    white + Gauss-Markov, 1000 records, N 0.691, sigma 0.666, tau 0.627 (tau's log-normal
+    interval is still short). With the earlier normal interval on log(theta): K 0.679,
+    sigma 0.653 (misses lopsided, more below than above); 100 records had given K 0.54."""
     rng = np.random.default_rng({"white+random_walk": 31, "white+gauss_markov": 32}[case])
     if case == "white+random_walk":
-        params, n, reps = {"white": 1.0, "random_walk": 1e-4}, 1 << 14, 100
+        params, truth = {"white": 1.0, "random_walk": 1e-4}, {"white": 1.0, "random_walk": 1e-2}
     else:
-        params, n, reps = {"white": 1.0, "gauss_markov": (0.04, 30.0)}, 1 << 14, 60
+        params, truth = {"white": 1.0, "gauss_markov": (0.04, 30.0)}, {"white": 1.0, "sigma": 0.2, "tau": 30.0}
+    n, reps = 1 << 14, 400
     x = simulate(params, n, 1.0, reps, rng)
     ad = sb.AllanDeviation()(x, fs=1.0)
-    hits = {k: [] for k in ("white", "random_walk", "sigma", "tau")}
+    hits = {k: [] for k in truth}
     for i in range(reps):
         m = sb.fit_noise(ad, terms=tuple(params), channel=i, replicates=32, seed=i)
-        t = m.terms["white"]
-        hits["white"].append(t.lower <= 1.0 <= t.upper)
-        if "random_walk" in params:
-            t = m.terms["random_walk"]
-            hits["random_walk"].append(t.lower <= 1e-2 <= t.upper)
-        else:
-            g = m.terms["gauss_markov"]
-            hits["sigma"].append(g.sigma.lower <= 0.2 <= g.sigma.upper)
-            hits["tau"].append(g.tau.lower <= 30.0 <= g.tau.upper)
-    for k, v in hits.items():
-        if not v:
-            continue
-        cover = float(np.mean(v))
-        se = math.sqrt(0.683 * 0.317 / len(v))
-        assert abs(cover - 0.683) < 4 * se + 0.03, (case, k, cover)
+        for k, v in truth.items():
+            t = getattr(m.terms["gauss_markov"], k) if k in ("sigma", "tau") else m.terms[k]
+            hits[k].append(t.lower <= v <= t.upper)
+    se = math.sqrt(0.683 * 0.317 / reps)
+    report = {k: float(np.mean(v)) for k, v in hits.items()}
+    print(case, "coverage (nominal 0.683):", report)
+    for k, cover in report.items():
+        assert abs(cover - 0.683) < 3 * se, (case, k, cover, report)
 
 
 def test_bad_input_names_value_and_fix():

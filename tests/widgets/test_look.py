@@ -240,3 +240,14 @@ def test_zoom_is_x_only_and_y_fits_the_visible_part(sig):
     assert view.ys.max >= np.max(value[(spec.freq >= 100) & (spec.freq <= 140)])
     view.reset_zoom()
     assert not view.zoomed and (view.ys.min, view.ys.max) == pytest.approx(whole)
+
+
+def test_the_model_curve_and_asymptotes_read_on_both_themes_and_stand_apart():
+    # WCAG 2.1 contrast 3:1 (graphical objects) on both JupyterLab backgrounds; the model curve
+    # at least 15 CIELAB units from the estimate, the measurement marker, every pin and the
+    # asymptote grey in normal vision and the three simulated deficiencies (Machado et al. 2009)
+    for colour in (_style.MODEL, _style.ASYMPTOTE):
+        for bg in BACKGROUNDS.values():
+            assert _contrast(colour, bg) >= 3.0, (colour, bg)
+    for other in [_style.CURRENT, _style.MARKER, _style.ASYMPTOTE, *PINS]:
+        assert _worst(_style.MODEL, other) >= 15.0, other

@@ -97,8 +97,14 @@ def test_switching_method_after_a_failure_leaves_no_stale_controls(small):
 
 
 def test_status_before_any_good_estimate_and_pin_without_one():
+    from specbench.widgets import CorrelationAnalysis, SpectrumAnalysis
+
     s = sb.Signal(np.random.default_rng(0).standard_normal(500), fs=100.0)
-    bench = sb.Workbench(s, correlation_estimator=sb.Autocorrelation(max_lag=50.0))
+    # every analysis open: the noise model does fit 500 samples, and the status says it is on screen
+    full = sb.Workbench(s, correlation_estimator=sb.Autocorrelation(max_lag=50.0))
+    assert full.spectrum is None and "On screen: Noise model" in full.status
+    bench = sb.Workbench(s, correlation_estimator=sb.Autocorrelation(max_lag=50.0),
+                         analyses=[SpectrumAnalysis(), CorrelationAnalysis()])
     assert bench.spectrum is None and bench.correlation is None
     assert "last good estimate stays" not in bench.status
     assert "Nothing is on screen yet" in bench.status

@@ -83,7 +83,7 @@ def test_every_control_of_every_method(sig, cls):
     bench = sb.Workbench(sig, cls())
     check_consistent(bench)
     keys = [k for k in bench.controls if k not in ("method", *DATA_KEYS, *VIEW_KEYS)
-            and not k.startswith("cross_")]  # the cross analysis: tests/widgets/test_cross_view.py
+            and not k.startswith(("cross_", "noise_"))]  # tests/widgets/test_cross_view.py, test_noise_view.py
     assert set(cls.params()) <= set(keys)  # every field has a control
     assert {f"acf_{k}" for k in sb.Autocorrelation.params() if k != "detrend"} <= set(keys)
     for key in keys:
