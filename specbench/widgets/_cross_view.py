@@ -392,12 +392,6 @@ class CrossAnalysis(Analysis):
         pair = f" ({shown.channels[0]} → {shown.channels[1]})" if shown is not None else ""
         return repr(est) + pair
 
-    def settings_entry(self, est: Any) -> tuple[Any, dict | None]:
-        # one channel: nothing to compare, and `specbench estimate` would refuse the entry
-        if self.last_result is None and self.single is not None:
-            return None, None
-        return est, None
-
     def freeze_lines(self, est: Any, data_var: str) -> list[str] | None:
         from ..freeze._describe import origin_call, py, wrap_comment
 
@@ -431,7 +425,10 @@ class CrossAnalysis(Analysis):
 
     def settings_entry(self, est: Any) -> tuple[Any, dict | None]:
         """The pair on screen (and the delay band, when its readout has a clean value) go into the
-        settings file's options; the plain numpy/scipy cell reads them too."""
+        settings file's options; the plain numpy/scipy cell reads them too.  A one-channel record
+        has nothing to compare: the entry is left out (``specbench estimate`` would refuse it)."""
+        if self.last_result is None and self.single is not None:
+            return None, None
         if self.last_result is None:
             return est, None
         out: dict = {"pair": list(self.pair)}
