@@ -618,7 +618,8 @@ def _phase_delay(res: CrossSpectrumResult, band: Any) -> Delay:
     return Delay(
         value=float(value), stderr=float(stderr), lower=float(value - z * stderr),
         upper=float(value + z * stderr), confidence=res.confidence,
-        method="weighted least-squares phase slope over coherent bins (Bendat & Piersol 2010 errors)",
+        method=("weighted least-squares phase slope over coherent bins, segment misalignment removed; "
+                "stderr: Bendat & Piersol 2010 phase errors, sandwich with the window's bin correlation"),
         channels=res.channels, band=(f1, f2),
         info=dict(fs=res.fs, bins_used=int(idx.size), bins_in_band=int(inband.sum()),
                   intercept_rad=float(coef[0]), coarse_delay=float(tau0), misalignment=misaligned,
