@@ -213,8 +213,10 @@ class MeasurePanel:
         self.controls = gapped(W.HBox([self.band_lo, self.band_hi, self.band_set, self.harmonic_count, self.fit_y],
                                       layout=W.Layout(flex_flow="row wrap", align_items="center")), "small")
         self.controls.add_class("sb-measure-controls")
-        self.table = W.GridBox(layout=W.Layout(grid_template_columns="minmax(110px, auto) minmax(120px, auto) "
-                                                                     "minmax(130px, auto) minmax(120px, auto) 1fr",
+        # narrow windows: the value columns share the width and their text wraps; the label and
+        # tone-button column keeps its content's width
+        self.table = W.GridBox(layout=W.Layout(grid_template_columns="max-content minmax(min-content, 1fr) "
+                                                                     "minmax(0, 1.3fr) minmax(0, 1fr) minmax(0, 1fr)",
                                                width="100%"))
         self.table.add_class("sb-measure-table")
         self.widget = W.VBox([self.table], layout=W.Layout(width="100%"))

@@ -149,9 +149,10 @@ _CSS = """
 .sb-workbench .sb-status .sb-err { color: var(--jp-error-color1); font-weight: 600; }
 .sb-workbench .sb-status .sb-note { color: var(--jp-warn-color1); font-weight: 600; }
 .sb-workbench .sb-muted { color: var(--jp-ui-font-color2); }
-.sb-workbench .sb-measure-table { column-gap: 12px; row-gap: 1px; align-items: center; }
-.sb-workbench .sb-mt-cell { font-variant-numeric: tabular-nums; white-space: nowrap; overflow: hidden;
-  text-overflow: ellipsis; min-width: 0; }
+.sb-workbench .sb-measure-table { column-gap: 8px; row-gap: 5px; align-items: center; padding: 2px; }
+.sb-workbench .sb-mt-cell { font-variant-numeric: tabular-nums; min-width: 0 !important; width: auto; margin: 0; }
+.sb-workbench .sb-mt-cell, .sb-workbench .sb-mt-cell .widget-html-content { white-space: normal;
+  overflow-wrap: anywhere; line-height: 1.35; }
 .sb-workbench .sb-mt-head { font-size: var(--jp-ui-font-size0, 11px); color: var(--jp-ui-font-color2);
   border-bottom: 1px solid var(--jp-border-color2); }
 .sb-workbench .sb-mt-span4 { grid-column: span 4; white-space: normal; }
