@@ -8,7 +8,7 @@
 """
 
 # the forms of further analyses register their batch writers and plain-code forms
-from . import _cross_form, _noise_form  # noqa: E402, F401
+from . import _cross_form, _noise_code, _noise_form  # noqa: E402, F401
 from ._codegen import STYLES, check_data_name, code_cell
 from ._fingerprint import Fingerprint, check_data, fingerprint
 from ._freeze import FrozenCode, freeze

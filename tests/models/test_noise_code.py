@@ -35,3 +35,62 @@ def test_numpy_form_matches_to_rounding():
         ref = est(sig).channel(0)
         np.testing.assert_allclose(ns["tau"], ref.tau)
         np.testing.assert_allclose(ns["adev"], ref.value, rtol=1e-9)
+
+
+def _check_plain_fit(ns, ref, model, k):
+    r = ns["noise_result"]
+    np.testing.assert_allclose(r["tau"], ref.tau)
+    for key, want in (("adev", ref.value), ("lower", ref.lower), ("upper", ref.upper), ("dof", ref.dof)):
+        np.testing.assert_allclose(r[key], want, rtol=1e-9, err_msg=key)
+    for name, t in model.terms.items():
+        got = r["terms"][name]
+        if name == "gauss_markov":
+            np.testing.assert_allclose(got, (t.sigma.value, t.sigma.lower, t.sigma.upper), rtol=1e-5)
+            np.testing.assert_allclose(r["terms"]["gauss_markov tau"], (t.tau.value, t.tau.lower, t.tau.upper),
+                                       rtol=1e-5)
+        else:
+            np.testing.assert_allclose(got, (t.value, t.lower, t.upper), rtol=1e-5, err_msg=name)
+    for key in ("F", "Q", "H", "R"):
+        np.testing.assert_allclose(r[key], getattr(k, key), rtol=1e-5, err_msg=key)
+
+
+def test_numpy_form_of_the_fit_agrees_with_fit_noise_and_kalman():
+    """The written-out fit (deviation intervals, IRLS/NNLS terms, sandwich with the simulated
+    replicates, Satterthwaite intervals, Van Loan F and Q) against the library, to rounding:
+    1e-9 for the deviation, 1e-5 for the terms (the Gauss-Markov time's bounded search stops at
+    xatol 1e-6 in log T, so rounding in the residuals moves it by about that much)."""
+    from specbench.models._fit import simulate
+
+    cases = [
+        (sb.demo("imu-static", duration=600.0), ("white", "gauss_markov"), 0.01, 8),
+        (sb.Signal(simulate({"white": 1.0, "random_walk": 1e-4}, 1 << 15, 1.0, 1, np.random.default_rng(9))[0],
+                   fs=1.0), ("white", "random_walk"), 0.5, 12),
+        (sb.Signal(simulate({"white": 1.0, "quantization": 1.0}, 1 << 15, 1.0, 1,
+                            np.random.default_rng(10))[0], fs=1.0), ("quantization", "white"), 1.0, 6),
+    ]
+    for sig, terms, dt, reps in cases:
+        est = sb.AllanDeviation()
+        code = noise_code(sig, est, terms=terms, dt=dt, replicates=reps, style="numpy")
+        plain = code.split("signal =", 1)[1].split("\n", 1)[1]
+        code_only = "\n".join(ln.split("#")[0] for ln in plain.splitlines())
+        assert "sb." not in code_only and "specbench" not in code_only  # plain numpy/scipy after the input
+        ns = {"data": sig.data}  # the cell's input, for the in-memory records
+        exec(compile(code, "<cell>", "exec"), ns)
+        ref = est(sig).channel(0)
+        model = sb.fit_noise(ref, terms=terms, replicates=reps)
+        _check_plain_fit(ns, ref, model, model.kalman(dt))
+        assert np.array_equal(ns["noise_Q"], ns["noise_result"]["Q"])
+
+
+def test_workbench_plain_cell_writes_the_noise_fit():
+    from specbench.widgets import Workbench
+
+    sig = sb.demo("imu-static", duration=600.0)
+    wb = Workbench(sig, channel="gyro_z")
+    wb.controls["noise_replicates"].value = 8
+    r = wb.result("noise")
+    code = wb.code(style="scipy")
+    assert "def noise_allan_fit(rate, fs):" in code and "import specbench" not in code
+    ns = {"x": sig.data}
+    exec(compile(code, "<cell>", "exec"), ns)
+    _check_plain_fit(ns, r.allan, r.model, r.kalman)
