@@ -53,6 +53,8 @@ def test_band_table_tones_and_advise(lab):
 
     # drag a band with the band tool
     psd.locator(".widget-toggle-buttons button", has_text=re.compile(r"^band$")).click()
+    # the brush is drawn by the front end once the kernel has sent the new interaction
+    page.wait_for_function("() => !!document.querySelector('.sb-view-psd .bqplot .brushintsel')")
     box = psd.locator(".bqplot").first.bounding_box()
     y = box["y"] + box["height"] * 0.5
     page.mouse.move(box["x"] + box["width"] * 0.55, y)
