@@ -562,6 +562,10 @@ def scipy_body(state: FreezeState) -> str:
             lines += ["", f"# {type(acf).__name__}: no plain numpy/scipy form is written for it on this data; "
                       "use the specbench form."]
     lines += _analysis_lines(state)
+    if getattr(state, "code_lines", {}).get("psd"):  # the workbench's measurement readings
+        lines += ["", "# The workbench's measurements (band RMS and power with their Satterthwaite dof, tones by",
+                  "# the estimator's own tone response, noise floor) have no plain numpy/scipy form: they are",
+                  "# in the specbench form of this cell (style='specbench')."]
     return "\n".join(lines) + "\n"
 
 

@@ -125,6 +125,9 @@ def test_frozen_cell_reproduces_the_table(bench, record):
                                                      reading.result.upper)
     assert [t.freq for t in ns["tones"]] == [t.freq for t in r.tones.result]
     assert [h.value for h in ns["harmonics"]] == [h.result.value for h in r.harmonics]
+    plain = bench.code(style="scipy")  # no plain form of the readings: the cell says so and still runs
+    assert "band_rms" not in plain and "no plain numpy/scipy form" in plain
+    exec(plain, {"x": record})
 
 
 def test_failing_reading_never_breaks_the_view(bench):
