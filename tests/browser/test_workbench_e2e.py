@@ -15,11 +15,14 @@ length L at step S (Welch, IEEE Trans. Audio Electroacoust. 15(2), 1967).
 
 from __future__ import annotations
 
+import json
 import re
 from dataclasses import dataclass
 from pathlib import Path
 
 import nbformat
+
+from specbench.widgets._style import ASYMPTOTE, CURRENT, MARKER, MODEL, PIN_STYLES
 
 EXAMPLES = Path(__file__).resolve().parents[2] / "example_notebooks"
 
@@ -104,6 +107,17 @@ class Drawn:
         return self.band["area"], self.line["line"]
 
 
+def _rgb(colour: str) -> str:
+    """``#rrggbb`` as the browser's computed style writes it."""
+    r, g, b = (int(colour[i:i + 2], 16) for i in (1, 3, 5))
+    return f"rgb({r}, {g}, {b})"
+
+
+def overlay_colours() -> set[str]:
+    """The colours of marks that are neither an estimate nor a pin: measurement cursors, models."""
+    return {_rgb(colour) for colour in (MARKER, MODEL, ASYMPTOTE)}
+
+
 def curves_of(figure) -> list[dict]:
     """Every curve of the bqplot figure at locator ``figure``, measured where it is seen."""
     figure.scroll_into_view_if_needed()
@@ -117,6 +131,11 @@ def drawn(lab, view: str) -> Drawn:
     # a band is a translucent shade (bqplot also writes an opaque, zero-area path per curve)
     shades = [c for c in curves if c["area"] and 0 < c["area_opacity"] < 1]
     lines = [c for c in curves if c["line"] and c["line_opacity"] > 0 and c["line_width"] > 0]
+    # the measurement cursors and the model overlays of other analyses are drawn in colours of
+    # their own (widgets/_style.py), never in the estimate's or a pin's colour: set them aside
+    others = overlay_colours()
+    assert not others & ({_rgb(CURRENT)} | {_rgb(c) for c, _ in PIN_STYLES}), "an overlay colour is a trace colour"
+    lines = [c for c in lines if c["stroke"] not in others]
     solid = [c for c in lines if c["dash"] in ("none", "")]
     pins = [c for c in lines if c["dash"] not in ("none", "")]
     assert len(solid) == 1, f".sb-{view}: {len(solid)} solid lines, expected 1 (the estimate)"
@@ -227,6 +246,25 @@ _CELLS_JS = """() => [...document.querySelectorAll('.jp-Notebook .jp-Cell')].map
 def cells(lab) -> list[dict]:
     """Every cell of the notebook as shown: code or not, its prompt, its editor text."""
     return lab.page.evaluate(_CELLS_JS)
+
+
+def saved_cell_source(lab, path: Path, index: int, timeout: float = 30.0) -> str:
+    """Source of cell ``index`` of the notebook at ``path`` once JupyterLab has saved it there."""
+    import time
+
+    lab.page.locator(".jp-Notebook").first.click(position={"x": 5, "y": 5})
+    lab.page.keyboard.press("Control+s")
+    end = time.monotonic() + timeout
+    while True:
+        try:
+            cells_ = json.loads(path.read_text(encoding="utf-8"))["cells"]
+        except (OSError, ValueError, KeyError):
+            cells_ = []
+        if len(cells_) > index:
+            text = cells_[index]["source"]
+            return text if isinstance(text, str) else "".join(text)
+        assert time.monotonic() < end, f"{path.name} not saved with {index + 1} cells within {timeout} s"
+        time.sleep(0.2)
 
 
 def code_cell_below(lab, source: str) -> dict:
@@ -366,7 +404,8 @@ def test_a_pin_adds_an_overlay_in_both_views(lab):
         lab.page.wait_for_function("() => document.querySelectorAll('.sb-pin-row').length === 2")
         lab.page.wait_for_function(
             "() => [...document.querySelectorAll('.sb-psd path.line')]"
-            ".filter(p => getComputedStyle(p).strokeDasharray !== 'none' && p.getAttribute('d')).length === 2"
+            ".filter(p => getComputedStyle(p).strokeDasharray !== 'none' && p.getAttribute('d') && "
+            f"!{json.dumps(sorted(overlay_colours()))}.includes(getComputedStyle(p).stroke)).length === 2"
         )
     for view in ("psd", "acf"):
         d = drawn(lab, view)
@@ -447,10 +486,14 @@ def test_freeze_inserts_a_cell_below_holding_bench_code(lab):
     inserted = code_cell_below(lab, FREEZE_CELL)
     assert inserted["code"]
     assert re.fullmatch(r"\[\s*\]:", inserted["prompt"].strip()), "the inserted cell was executed"
-    assert inserted["text"] == returned  # every character, the final newline too
+    # CodeMirror renders only the lines in view, so the cell's text is read from the notebook as
+    # JupyterLab saves it: every character, the final newline too
+    source = saved_cell_source(lab, folder / "freeze.ipynb", 2)
+    assert source == returned
+    assert returned.startswith(inserted["text"].rstrip("\n").split("\n")[0])
     # bench.code() called a moment later writes the same cell (its time stamp may differ)
-    assert without_time(inserted["text"]) == without_time(code)
-    assert cells(lab)[-1]["text"] == inserted["text"]  # inserted below the freezing cell
+    assert without_time(source) == without_time(code)
+    assert cells(lab)[-1]["code"] and len(cells(lab)) == 3  # inserted below the freezing cell
     lab.screenshot("1-inserted-cell")
 
 
