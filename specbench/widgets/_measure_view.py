@@ -104,10 +104,19 @@ class MeasureLayer:
 
     # -- the layer protocol of SpectrumView ----------------------------------------------
     def marks(self) -> list:
-        return [self.shade, self.edges, self.harmonics, self.harmonic_labels, self.peak, self.peak_label]
+        """The marks in the figure now: only the cursors in use (no hidden marks in the plot)."""
+        out = []
+        if self.state.band is not None:
+            out += [self.shade, self.edges]
+        r = self.state.last
+        if r is not None and r.fundamental is not None and r.harmonics:
+            out += [self.harmonics, self.harmonic_labels]
+        if r is not None and r.tones.ok and len(r.tones.result):
+            out += [self.peak, self.peak_label]
+        return out
 
     def holds(self) -> list:
-        return self.marks()
+        return [self.shade, self.edges, self.harmonics, self.harmonic_labels, self.peak, self.peak_label]
 
     def draw(self, cur: Any) -> None:
         """Put the cursors where the state says (called inside the view's synchronised redraw)."""
