@@ -366,6 +366,7 @@ class NumberControl(FieldControl):
         if value is None or isinstance(value, bool) or not isinstance(value, (int, float)):
             return
         _assign(self.entry, value=value)
+        _fit_entry(self.entry, value)
         s = self.slider
         if s is not None and s.min <= _slider_pos(self, value) <= s.max:
             k = self._snap(value)
@@ -401,6 +402,19 @@ class NumberControl(FieldControl):
         with self._silence():
             _set_range(self.slider, rng[0], rng[1])
             self._show(self.value)
+
+
+def _fit_entry(entry: W.Widget, value: float) -> None:
+    """Widen a number entry so that every digit of ``value`` shows (1/fs reads 0.0001953125).
+
+    The front end writes the shortest repr of the number, as Python does; about 7.6 px per
+    character at JupyterLab's code font size, plus the input's padding and spin buttons.
+    """
+    chars = len(repr(float(value))) if isinstance(value, float) else len(str(value))
+    wanted = max(int(ENTRY_WIDTH[:-2]), math.ceil(7.6 * chars + 28))
+    width = f"{wanted}px"
+    if entry.layout.width != width:
+        entry.layout.width = width
 
 
 def _slider_pos(ctrl: NumberControl, value: float) -> float:

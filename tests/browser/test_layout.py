@@ -36,8 +36,14 @@ _OVERFLOW_JS = """() => {
     const edge = root.getBoundingClientRect().right;
     const what = (el) => {
         const cls = typeof el.className === 'string' ? el.className : (el.className.baseVal || '');
-        const text = (el.innerText || el.textContent || '').trim().slice(0, 40);
-        return `${el.tagName.toLowerCase()}.${cls.split(/\\s+/).filter(Boolean).slice(0, 3).join('.')} "${text}"`;
+        const text = (el.innerText || el.textContent || el.value || el.placeholder || '').trim().slice(0, 40);
+        // the nearest specbench-named ancestor says which control or panel it is
+        let owner = el.parentElement;
+        const sb = (e) => [...e.classList].some(c => c.startsWith('sb-'));
+        while (owner && owner !== root && !sb(owner)) owner = owner.parentElement;
+        const named = owner ? [...owner.classList].filter(c => c.startsWith('sb-')).slice(0, 2).join('.') : '';
+        const label = el.tagName.toLowerCase() + '.' + cls.split(/\\s+/).filter(Boolean).slice(0, 3).join('.');
+        return `${label} "${text}"${named ? ' in .' + named : ''}`;
     };
     const out = [];
     const all = [root, ...root.querySelectorAll('*')];
