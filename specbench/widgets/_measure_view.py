@@ -231,6 +231,9 @@ class MeasurePanel:
         self.widget = W.VBox([self.table], layout=W.Layout(width="100%"))
         self.widget.add_class("sb-measurements")
         self.tone_buttons: list[W.Button] = []
+        self._cell_pool: list[W.HTML] = []
+        self._button_pool: list[W.Button] = []
+        self._used = self._buttons_used = 0
 
     # -- user actions ------------------------------------------------------------------
     def _typed_band(self) -> None:
@@ -275,6 +278,35 @@ class MeasurePanel:
         self.on_change()
 
     # -- show --------------------------------------------------------------------------
+    def _cell(self, text: str, cls: str = "") -> W.HTML:
+        """The next cell of the table, reused from the last update when there is one."""
+        pool = self._cell_pool
+        if self._used == len(pool):
+            pool.append(_cell(text, cls))
+        w = pool[self._used]
+        self._used += 1
+        classes = ("sb-mt-cell", cls) if cls else ("sb-mt-cell",)
+        if tuple(w._dom_classes) != classes:
+            w._dom_classes = classes
+        if w.value != text:
+            w.value = text
+        return w
+
+    def _tone_button(self, freq: float) -> W.Button:
+        """The next tone button (reused); a click centres the view on ``freq``."""
+        pool = self._button_pool
+        if self._buttons_used == len(pool):
+            b = W.Button(layout=W.Layout(width="auto"))
+            b.add_class("sb-tone-button")
+            b.on_click(lambda button: self.centre(button._sb_freq))
+            pool.append(b)
+        b = pool[self._buttons_used]
+        self._buttons_used += 1
+        b._sb_freq = float(freq)
+        b.description = f"{fmt(freq, 7)} Hz"
+        b.tooltip = f"Centre the view on {freq:.7g} Hz (harmonics follow this tone)."
+        return b
+
     def show(self, spec: Any) -> None:
         self.spec = spec
         r = self.state.last
@@ -283,7 +315,8 @@ class MeasurePanel:
             return
         if self.state.band is not None:
             self.band_lo.value, self.band_hi.value = self.state.band
-        rows: list = [_cell(c, "sb-mt-head") for c in self.COLUMNS]
+        self._used = self._buttons_used = 0  # the table's widgets are reused in order: no new comms
+        rows: list = [self._cell(c, "sb-mt-head") for c in self.COLUMNS]
         rows += self._measurement_row(r.band_rms, "RMS")
         rows += self._measurement_row(r.band_power, "power")
         rows += self._measurement_row(r.floor, "floor")
@@ -291,14 +324,14 @@ class MeasurePanel:
         for h in r.harmonics:
             rows += self._measurement_row(h, "harmonic")
         if self.message:
-            rows += [_cell(f"<span class='sb-err'>{html.escape(self.message)}</span>", "sb-mt-wide")]
+            rows += [self._cell(f"<span class='sb-err'>{html.escape(self.message)}</span>", "sb-mt-wide")]
         self.table.children = rows
         self.readout.value = self._readout(r)
 
     def _measurement_row(self, reading: Any, kind: str) -> list:
-        label = _cell(f"<b>{html.escape(reading.label)}</b>", f"sb-mt-{reading.key}")
+        label = self._cell(f"<b>{html.escape(reading.label)}</b>", f"sb-mt-{reading.key}")
         if not reading.ok:
-            return [label, _cell(f"<span class='sb-muted'>{html.escape(reading.message or '')}</span>",
+            return [label, self._cell(f"<span class='sb-muted'>{html.escape(reading.message or '')}</span>",
                                  "sb-mt-span4")]
         m = reading.result
         where = f"{fmt(m.band[0])} – {fmt(m.band[1])} Hz"
@@ -306,32 +339,30 @@ class MeasurePanel:
         detail = f"{fmt(float(m.dof), 3)} dof · {m.bins:,} bins"
         if kind == "floor":
             detail = f"median of {m.bins:,} bins"
-        return [label, _cell(f"{fmt(float(m.value))} {_unit(m.unit)}", "sb-mt-value"),
-                _cell(f"{pct} {_interval(m)}", "sb-mt-interval"), _cell(where), _cell(f"<span class='sb-muted'>"
-                                                                               f"{detail}</span>")]
+        return [label, self._cell(f"{fmt(float(m.value))} {_unit(m.unit)}", "sb-mt-value"),
+                self._cell(f"{pct} {_interval(m)}", "sb-mt-interval"), self._cell(where),
+                self._cell(f"<span class='sb-muted'>{detail}</span>")]
 
     def _tone_rows(self, r: Readings) -> list:
         reading = r.tones
-        head = _cell("<b>Tones</b>", "sb-mt-tones")
+        head = self._cell("<b>Tones</b>", "sb-mt-tones")
         if not reading.ok:
-            return [head, _cell(f"<span class='sb-muted'>{html.escape(reading.message or '')}</span>", "sb-mt-span4")]
+            note = html.escape(reading.message or "")
+            return [head, self._cell(f"<span class='sb-muted'>{note}</span>", "sb-mt-span4")]
         tones = reading.result
         if not len(tones):
-            return [head, _cell(f"<span class='sb-muted'>none: {html.escape(tones.note)}</span>", "sb-mt-span4")]
+            return [head, self._cell(f"<span class='sb-muted'>none: {html.escape(tones.note)}</span>", "sb-mt-span4")]
         out = []
         self.tone_buttons = []
         for i, t in enumerate(tones):
-            b = W.Button(description=f"{fmt(t.freq, 7)} Hz", layout=W.Layout(width="auto"),
-                         tooltip=f"Centre the view on {t.freq:.7g} Hz (harmonics follow this tone).")
-            b.add_class("sb-tone-button")
-            b.on_click(lambda _, f=t.freq: self.centre(f))
+            b = self._tone_button(t.freq)
             self.tone_buttons.append(b)
             u = _unit(t.unit)
             se = "—" if not math.isfinite(t.freq_stderr) else f"± {fmt(t.freq_stderr, 2)} Hz"
-            out += [_cell("<b>Tones</b>" if i == 0 else "", "sb-mt-tones" if i == 0 else ""), b,
-                    _cell(f"{fmt(t.amplitude)} {u} RMS", "sb-mt-value"),
-                    _cell(f"[{fmt(t.amplitude_lower)}, {fmt(t.amplitude_upper)}] {se}", "sb-mt-interval"),
-                    _cell(f"<span class='sb-muted'>{t.level_db:.1f} dB · SNR {t.snr_db:.1f} dB</span>")]
+            out += [self._cell("<b>Tones</b>" if i == 0 else "", "sb-mt-tones" if i == 0 else ""), b,
+                    self._cell(f"{fmt(t.amplitude)} {u} RMS", "sb-mt-value"),
+                    self._cell(f"[{fmt(t.amplitude_lower)}, {fmt(t.amplitude_upper)}] {se}", "sb-mt-interval"),
+                    self._cell(f"<span class='sb-muted'>{t.level_db:.1f} dB · SNR {t.snr_db:.1f} dB</span>")]
         return out
 
     def _readout(self, r: Readings) -> str:
