@@ -288,6 +288,8 @@ def plain_fit_lines(prefix: str, estimator: AllanDeviation, terms: tuple, *, dt:
 
 def _plain_analysis_lines(state: Any, name: str, est: AllanDeviation, options: dict) -> list[str]:
     """The Workbench plain cell's lines of a noise-model analysis (its options: terms, dt, ...)."""
+    import numpy as np
+
     from ._scipy_form import numpy_selection
 
     fs, row, cols, analysed = numpy_selection(state)
@@ -297,6 +299,11 @@ def _plain_analysis_lines(state: Any, name: str, est: AllanDeviation, options: d
     if not terms or est.input != "rate" or not est.overlapping:
         return lines + wrap_comment("No plain form written for these settings (it covers the overlapping "
                                     "deviation of rate data with the fitted terms); use the specbench form.")
+    samples = np.asarray(np.atleast_2d(analysed.data)[0])
+    missing = int(samples.size - np.count_nonzero(np.isfinite(samples)))
+    if missing:  # the specbench form leaves out the clusters that touch a gap; this form has no gaps
+        return lines + wrap_comment(f"No plain form written: the selection has {missing:,} missing (NaN) samples, "
+                                    "and the plain form covers records without gaps; use the specbench form.")
     sel = f"[{row if row is not None else 0}" + ("" if cols is None else f", {cols[0]}:{cols[1]}") + "]"
     lines.append(f"{p}x = np.atleast_2d({state.data_name}){sel}")
     lines += plain_fit_lines(p, est, tuple(terms), dt=float(options.get("dt", 1 / fs)),
