@@ -16,6 +16,7 @@ length L at step S (Welch, IEEE Trans. Audio Electroacoust. 15(2), 1967).
 from __future__ import annotations
 
 import json
+import math
 import re
 from dataclasses import dataclass
 from pathlib import Path
@@ -248,22 +249,34 @@ def cells(lab) -> list[dict]:
     return lab.page.evaluate(_CELLS_JS)
 
 
-def saved_cell_source(lab, path: Path, index: int, timeout: float = 30.0) -> str:
-    """Source of cell ``index`` of the notebook at ``path`` once JupyterLab has saved it there."""
+def saved_cell_source(lab, path: Path, index: int | None = None, *, after: str | None = None,
+                      starts: str = "", timeout: float = 30.0) -> str:
+    """Source of a cell of the notebook at ``path`` once JupyterLab has saved it there: cell
+    ``index``, or the cell right below the one whose source is ``after``; it waits (saving again)
+    until that cell's source begins with ``starts``.
+
+    CodeMirror renders only the lines in view, so a long cell's text is read from the file.
+    """
     import time
 
-    lab.page.locator(".jp-Notebook").first.click(position={"x": 5, "y": 5})
-    lab.page.keyboard.press("Control+s")
     end = time.monotonic() + timeout
+    saved_at = -math.inf
     while True:
+        if time.monotonic() - saved_at > 3.0:
+            lab.page.locator(".jp-Notebook").first.click(position={"x": 5, "y": 5})
+            lab.page.keyboard.press("Control+s")
+            saved_at = time.monotonic()
         try:
-            cells_ = json.loads(path.read_text(encoding="utf-8"))["cells"]
+            sources = [c["source"] if isinstance(c["source"], str) else "".join(c["source"])
+                       for c in json.loads(path.read_text(encoding="utf-8"))["cells"]]
         except (OSError, ValueError, KeyError):
-            cells_ = []
-        if len(cells_) > index:
-            text = cells_[index]["source"]
-            return text if isinstance(text, str) else "".join(text)
-        assert time.monotonic() < end, f"{path.name} not saved with {index + 1} cells within {timeout} s"
+            sources = []
+        at = index
+        if after is not None:
+            at = sources.index(after) + 1 if after in sources else None
+        if at is not None and len(sources) > at and sources[at].startswith(starts):
+            return sources[at]
+        assert time.monotonic() < end, f"{path.name} not saved with the cell asked for within {timeout} s"
         time.sleep(0.2)
 
 
@@ -318,9 +331,13 @@ def test_quickstart_runs_and_both_views_draw_with_their_bands(lab):
     lab.screenshot("3-band-and-truth", show='.bqplot:has(.mainheading:has-text("true PSD"))')
 
     # bench.freeze() inserted its code below, not executed
-    frozen = code_cell_below(lab, "frozen = bench.freeze()  # in JupyterLab: the new cell below")
+    freezing = "frozen = bench.freeze()  # in JupyterLab: the new cell below"
+    frozen = code_cell_below(lab, freezing)
     assert frozen["code"] and frozen["text"].startswith("# Frozen spectral estimate")
-    assert "psd_estimator = sb.Welch(segment_length=4096)" in frozen["text"]
+    saved = saved_cell_source(lab, lab.server.root / lab.folder / "quickstart.ipynb", after=freezing,
+                              starts="# Frozen spectral estimate")
+    assert saved.startswith("# Frozen spectral estimate")
+    assert "psd_estimator = sb.Welch(segment_length=4096)" in saved
     assert re.fullmatch(r"\[\s*\]:", frozen["prompt"].strip()), frozen["prompt"]
     lab.screenshot("4-frozen-cell")
 
@@ -488,7 +505,7 @@ def test_freeze_inserts_a_cell_below_holding_bench_code(lab):
     assert re.fullmatch(r"\[\s*\]:", inserted["prompt"].strip()), "the inserted cell was executed"
     # CodeMirror renders only the lines in view, so the cell's text is read from the notebook as
     # JupyterLab saves it: every character, the final newline too
-    source = saved_cell_source(lab, folder / "freeze.ipynb", 2)
+    source = saved_cell_source(lab, folder / "freeze.ipynb", 2, starts="# Frozen spectral estimate")
     assert source == returned
     assert returned.startswith(inserted["text"].rstrip("\n").split("\n")[0])
     # bench.code() called a moment later writes the same cell (its time stamp may differ)
