@@ -21,7 +21,7 @@ from typing import Any
 
 import numpy as np
 import scipy.fft
-from numpy.lib.stride_tricks import sliding_window_view
+from numpy.lib.stride_tricks import as_strided, sliding_window_view
 
 from .._errors import Cancelled, ComputeError, InputError, SettingsError, SpecbenchError
 
@@ -265,11 +265,13 @@ def _block_means(x: np.ndarray, start: int, count: int, step: int, nperseg: int)
         view = sliding_window_view(span, nperseg, axis=-1)[:, ::step, :]
         return view.mean(axis=-1, keepdims=True, dtype=acc)
     sums = span.reshape(span.shape[0], -1, g).sum(axis=-1, dtype=acc)
-    prefix = np.zeros((span.shape[0], sums.shape[1] + 1), dtype=acc)
+    prefix = np.empty((span.shape[0], sums.shape[1] + 1), dtype=acc)
+    prefix[:, 0] = 0.0
     np.cumsum(sums, axis=-1, out=prefix[:, 1:])
-    first = np.arange(count) * (step // g)
-    seg_sums = prefix[:, first + nperseg // g] - prefix[:, first]
-    return (seg_sums / nperseg)[:, :, None]
+    q, r = step // g, nperseg // g  # segment i: chunks i q .. i q + r - 1
+    seg_sums = np.subtract(prefix[:, r : r + (count - 1) * q + 1 : q], prefix[:, : (count - 1) * q + 1 : q])
+    seg_sums /= nperseg
+    return seg_sums[:, :, None]
 
 
 class _LinearDetrend:
@@ -482,8 +484,11 @@ def _segment_block(span: np.ndarray, count: int, local: np.ndarray | None, w: np
     cplx = np.iscomplexobj(span)
     work = np.float32 if span.dtype in (np.float32, np.complex64, np.int16, np.int8, np.uint8) else np.float64
     buf_dtype = np.dtype(np.complex64 if work is np.float32 else np.complex128) if cplx else np.dtype(work)
-    view = sliding_window_view(span, nperseg, axis=-1)[:, ::step, :]
-    blk = view[:, :count, :] if local is None else view[:, local, :]
+    if local is None:  # the block's segments as a strided view (no copy)
+        s0, s1 = span.strides
+        blk = as_strided(span, shape=(c, count, nperseg), strides=(s0, step * s1, s1), writeable=False)
+    else:
+        blk = sliding_window_view(span, nperseg, axis=-1)[:, ::step, :][:, local, :]
     if not cplx and not keep_each and count > 1 and work is np.float64:  # float32: measured slower packed
         return _packed_block(blk, mu_of(span, blk, local, count, step, nperseg) if detrend == "constant" else None,
                              count, w, nfft, detrend, twosided, per_block, work)
@@ -564,8 +569,11 @@ def _packed_block(blk: np.ndarray, mu: np.ndarray | None, count: int, w: np.ndar
     sq = np.einsum("csj,csj->cj", fl, fl)
     s = np.add(sq[:, 0::2], sq[:, 1::2], dtype=np.float64)  # sum over pairs of |Z_k|^2, k = 0..nfft-1
     nfreq = nfft if twosided else nfft // 2 + 1
-    mirror = s[:, (-np.arange(nfreq)) % nfft]
-    out = s[:, :nfreq] + mirror
+    # out[k] = (s[k] + s[-k mod nfft]) / 2: bin 0 pairs with itself, bins 1.. with the
+    # reversed tail (slices, not an index array)
+    out = np.empty((c, nfreq))
+    np.add(s[:, :1], s[:, :1], out=out[:, :1])
+    np.add(s[:, 1:nfreq], s[:, : nfft - nfreq : -1], out=out[:, 1:])
     out *= 0.5
     return out
 
@@ -747,7 +755,11 @@ def lagged_products(
 
 def _moment_block(span: np.ndarray, a: int, shift: np.ndarray, dt: Any, cplx: bool, linear: bool):
     """Kernel of :class:`Moments`: shifted sums of one span starting at sample ``a``."""
-    seg = np.asarray(span, dtype=dt) - shift[:, None]
+    # seg = span - shift, in this thread's buffer (the same bits as the plain expression)
+    span = np.asarray(span)
+    c, n = span.shape
+    buf = _scratch("moments", (c, max(n, 1 << 16)), np.dtype(dt))[:, :n]
+    seg = np.subtract(span, shift[:, None], out=buf, dtype=dt)
     s1 = seg.sum(axis=-1)
     s2 = np.einsum("ij,ij->i", seg.conj(), seg).real if cplx else np.einsum("ij,ij->i", seg, seg)
     t = np.arange(a, a + seg.shape[-1], dtype=np.float64)

@@ -592,11 +592,13 @@ def _adaptive(sk: np.ndarray, lam: np.ndarray, sigma2: np.ndarray, fs: float,
         spec = sk[ch, :, f0:f1]
         broad = (1 - lam_col) * (sigma2[ch] / fs)
         s = spec[:2].mean(axis=0)
-        active = np.arange(f1 - f0)
+        # active: the chunk's frequencies still moving (None: all of them -- while every
+        # one moves, nothing is gathered or scattered; the first iterations are like that)
+        active, pending = None, False
         sub, cur = spec, s.copy()
         # b2 = lam cur**2 / (lam cur + broad)**2 and new = sum(b2 sub) / sum(b2), written
-        # into buffers of the chunk (the same operations in the same order: the same bits)
-        bufs = np.empty((3, k, f1 - f0))
+        # into the thread's buffers (the same operations in the same order: the same bits)
+        bufs = _scratch("adaptive", (3, k, chunk), np.dtype(np.float64))
         for _ in range(200):
             m = cur.size
             b2, den, prod = bufs[0, :, :m], bufs[1, :, :m], bufs[2, :, :m]
@@ -609,10 +611,21 @@ def _adaptive(sk: np.ndarray, lam: np.ndarray, sigma2: np.ndarray, fs: float,
             new = prod.sum(axis=0)
             new /= b2.sum(axis=0)
             moving = np.abs(new - cur) >= 1e-10 * np.maximum(new, np.finfo(float).tiny)
-            s[active] = new
+            if active is None and moving.all():
+                cur, pending = new, True
+                continue
+            pending = False
+            if active is None:
+                s[:] = new
+            else:
+                s[active] = new
             if not moving.any():
                 break
-            active, sub, cur = active[moving], sub[:, moving], new[moving]
+            keep = np.nonzero(moving)[0]
+            active = keep if active is None else active[keep]
+            sub, cur = sub[:, keep], new[keep]
+        if pending:  # 200 iterations with every frequency still moving
+            s[:] = cur
         b2 = lam_col * s**2 / (lam_col * s + broad) ** 2
         value[ch, f0:f1] = s
         a = b2 / b2.sum(axis=0)  # the weights as used
