@@ -5,6 +5,8 @@ Layout (one job per module):
 - ``workbench`` — the :class:`Workbench` facade;
 - ``_analysis`` — the named analyses (:class:`Analysis`, :func:`register_analysis`), pure Python;
 - ``_session`` — the analysis state and its transactional update, pure Python;
+- ``_controller`` — the event loop (events in, one synchronised draw and the status out),
+  pure Python: it reaches the panels only through the methods it calls on them;
 - ``_binding`` — controls generated for each analysis and bound to it;
 - ``_scheduler`` — now / coalesced / background-thread computes, progress and cancel;
 - ``_status`` — the status line's text (pure Python); ``_statusline`` — its widgets and the

@@ -30,7 +30,6 @@ from __future__ import annotations
 import contextlib
 import html
 import math
-from dataclasses import dataclass
 from typing import Any
 
 import ipywidgets as W
@@ -38,6 +37,7 @@ import traitlets
 
 from ..estimators._params import Boolean, Interval, Optional, Options, ParamSpec, Subset
 from ..estimators.windows import WINDOWS, Window, split_window
+from ._session import Context
 
 __all__ = [
     "Context",
@@ -57,13 +57,6 @@ ENTRY_WIDTH = "84px"
 #: step of logarithmic sliders, in decades
 LOG_STEP = 0.01
 
-
-@dataclass(frozen=True)
-class Context:
-    """What slider ranges depend on: the samples in the analysed span and the rate."""
-
-    n: int
-    fs: float
 
 
 def _pow2_floor(n: float) -> int:

@@ -1,5 +1,8 @@
 """Figures of merit of the estimate on screen, recomputed with every estimate.
 
+Pure Python but for :class:`MeritPanel` (ipywidgets imported when a panel is made), so that
+the analyses and the controller compute their figures headless.
+
 Each figure is read from the result (never recomputed differently from the estimator):
 resolution and ENBW, segments, degrees of freedom, the width of the confidence band in
 dB, the window's highest sidelobe, the Parseval ratio, what part of the data was used
@@ -11,12 +14,19 @@ from __future__ import annotations
 import html
 from dataclasses import dataclass
 
-import ipywidgets as W
 import numpy as np
 
-from ._views import fmt
+__all__ = ["Merit", "spectrum_merits", "MeritPanel", "fmt", "duration"]
 
-__all__ = ["Merit", "spectrum_merits", "MeritPanel"]
+
+def fmt(v: float, digits: int = 4) -> str:
+    """A number for people: 4 significant digits, no exponent between 1e-3 and 1e5."""
+    if v is None or not np.isfinite(v):
+        return "—" if v is None else str(v)
+    a = abs(v)
+    if a != 0 and (a < 1e-3 or a >= 1e5):
+        return f"{v:.{digits - 1}e}"
+    return f"{v:.{digits}g}"
 
 
 @dataclass(frozen=True)
@@ -103,6 +113,8 @@ class MeritPanel:
     """A grid of the figures of merit (CSS class ``sb-merit``)."""
 
     def __init__(self) -> None:
+        import ipywidgets as W  # the figures themselves (above) are pure Python
+
         self.widget = W.HTML()
         self.widget.add_class("sb-merit")
         self.merits: list[Merit] = []

@@ -59,6 +59,14 @@ RESULT_CACHE_MAX_BINS = 1 << 17
 
 
 @dataclass(frozen=True)
+class Context:
+    """What the controls' ranges depend on: the samples in the analysed span and the rate."""
+
+    n: int
+    fs: float
+
+
+@dataclass(frozen=True)
 class DataSelection:
     """Channel name, sample-rate override (None: the signal's) and span in seconds (None: whole)."""
 

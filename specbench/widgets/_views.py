@@ -33,6 +33,7 @@ import bqplot as bq
 import ipywidgets as W
 import numpy as np
 
+from ._merit import fmt  # noqa: F401  (the views' number format, used by the panels too)
 from ._reduce import reduce_sorted
 from ._style import (
     AXIS_LABEL,
@@ -74,16 +75,6 @@ def _set_range(scale, lo: float, hi: float) -> None:
         scale.max, scale.min = hi, lo
     else:
         scale.min, scale.max = lo, hi
-
-
-def fmt(v: float, digits: int = 4) -> str:
-    """A number for people: 4 significant digits, no exponent between 1e-3 and 1e5."""
-    if v is None or not np.isfinite(v):
-        return "—" if v is None else str(v)
-    a = abs(v)
-    if a != 0 and (a < 1e-3 or a >= 1e5):
-        return f"{v:.{digits - 1}e}"
-    return f"{v:.{digits}g}"
 
 
 def log_ticks(lo: float, hi: float, most: int = 9) -> list[float]:

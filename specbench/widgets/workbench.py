@@ -4,6 +4,8 @@ A thin facade over its parts, one job each:
 
 - :mod:`._analysis` — what each named analysis estimates, shows, pins and freezes;
 - :mod:`._session` — the analysis state and the transactional update (pure Python);
+- :mod:`._controller` — the event loop: control events and code requests in, one
+  synchronised draw and the status line out (pure Python; it holds no widget);
 - :mod:`._binding` — the controls generated for each analysis, read and written;
 - :mod:`._scheduler` — when an update computes (now, coalesced, or in a worker thread);
 - :mod:`._status` — the status line's text, :mod:`._statusline` — its widgets and the progress
@@ -26,10 +28,7 @@ Behaviour
 
 from __future__ import annotations
 
-import contextlib
 import logging
-import math
-import time
 import types
 from typing import Any
 
@@ -39,14 +38,13 @@ from .._errors import InputError, SettingsError, SpecbenchError
 from ..freeze._state import FreezeState
 from ._analysis import Analysis, carry_over, registered_analyses, spectral_classes
 from ._binding import ControlBinding, section
-from ._controls import Context
+from ._controller import Controller
 from ._datastrip import DataStrip
 from ._export import export_control as _export_control
 from ._merit import MeritPanel
 from ._pins import Pin, Pins
-from ._scheduler import BACKGROUND_SECONDS, COALESCE_SECONDS, Scheduler
-from ._session import DataSelection, Problem, Session, check_selection, gap_defaults, internal_message
-from ._status import guarded, status_of
+from ._scheduler import COALESCE_SECONDS, Scheduler
+from ._session import Context, DataSelection, Session, gap_defaults
 from ._statusline import StatusLine
 from ._style import gapped, style_sheet
 from ._viewhost import HostContext
@@ -57,17 +55,6 @@ _log = logging.getLogger("specbench.widgets")
 # no handler of our own: tracebacks go where the user's logging config sends them, and never
 # into a cell's output through logging's last-resort handler
 _log.addHandler(logging.NullHandler())
-
-
-def _guarded(fn):
-    """Observers never raise: errors go to the status line and the log."""
-
-    def wrapper(self, *args, **kwargs):
-        return guarded(self._session, self._show_status)(fn)(self, *args, **kwargs)
-
-    wrapper.__name__ = fn.__name__
-    wrapper.__doc__ = fn.__doc__
-    return wrapper
 
 
 def _as_signal(obj: Any):
@@ -173,34 +160,35 @@ class Workbench(W.VBox):
             raise SettingsError(f"No analysis named {sorted(unknown)}; the analyses are {[a.name for a in analyses]}.")
         ch = self._channel_name(channel)
         sel = DataSelection(ch, fs, None if span is None else tuple(float(s) for s in span))
-        self._gap_note = gap_defaults(self._signal, wanted, analyses)
+        gap_note = gap_defaults(self._signal, wanted, analyses)
         self._session = Session(self._signal, analyses, wanted, sel)
-        self._changed: set[str] = set()
-        self._last_update = math.nan
-        self._slow = False
-        self._expected = 0.0
 
-        # panels
+        # panels; their events go to the controller (made below, once every panel exists)
         self._strip = DataStrip(self._signal)
-        self._strip.on_brush = self._brushed
+        self._strip.on_brush = lambda span: setattr(self._strip.span, "value", span)  # as if typed
         self._hosts = {name: slot.analysis.make_view() for name, slot in self._session.slots.items()}
         self._merit = MeritPanel()
-        self._pins = Pins(self._session, lambda: self._draw(data=False), self._show_status)
+        self._pins = Pins(self._session, lambda: self._ctl.draw(data=False), lambda: self._ctl.show_status())
         self._statusline = StatusLine(self.cancel)
-        self._scheduler = Scheduler(lambda *a: self._run(*a))
         for name, host in self._hosts.items():
             for option in host.controls().values():
                 if hasattr(option, "on_problem"):
-                    option.on_problem = self._view_problem
+                    option.on_problem = lambda key, message: self._ctl.view_problem(key, message)
             if hasattr(host, "bind"):  # views that read the record or propose an estimator
                 host.bind(HostContext(selected=lambda: self.selected, estimator=lambda n=name: self.estimator_of(n),
-                                      apply=lambda est, n=name: self._apply_from_ui(n, est)))
-
-        # controls
-        self._binding = ControlBinding(self._session, self._on_field, self._on_method, self._context)
+                                      apply=lambda est, n=name: self._ctl.apply_from_ui(n, est)))
+        self._binding = ControlBinding(self._session, lambda key: self._ctl.on_field(key),
+                                       lambda name: self._ctl.on_method(name), self._context)
         self._binding.strip_box = self._strip.fields_box
+        self._panel = self._freeze_panel()
+        self._ctl = Controller(self._session, self._signal, binding=self._binding, strip=self._strip,
+                               hosts=self._hosts, merit=self._merit, statusline=self._statusline,
+                               pins=lambda: self._pins.items, panel=lambda: self._panel, gap_note=gap_note)
+        self._scheduler = self._ctl.scheduler = Scheduler(lambda *a: self._ctl.run(*a))
+
+        # controls, set to the starting state without events
         for key, c in (("channel", self._strip.channel), ("fs", self._strip.rate), ("span", self._strip.span)):
-            c.observe(lambda ch, k=key: self._on_selection(k), names="value")
+            c.observe(lambda ch, k=key: self._ctl.on_selection(k), names="value")
         self._binding.applying += 1
         try:
             self._strip.channel.set_value_quietly(ch)
@@ -225,12 +213,11 @@ class Workbench(W.VBox):
                               section("Picture"), _export_control(self)],
                              layout=W.Layout(width="100%")), "small")
         children = [style_sheet(), self._strip.widget, main]
-        self._panel = self._freeze_panel()
         if self._panel is not None:
             children += [section("Freeze"), self._panel]
         self.children = children
         self.add_class("sb-workbench")
-        self._run(True)
+        self._ctl.run(True)
 
     # ------------------------------------------------------------------ construction helpers
     def _channel_name(self, channel: Any) -> str:
@@ -263,107 +250,13 @@ class Workbench(W.VBox):
         except SpecbenchError:
             return Context(self._signal.n_samples, self._signal.fs)
 
-    def _data_controls(self) -> dict[str, Any]:
-        """The controls outside the binding (data strip, view options), for marking."""
-        out = {"channel": self._strip.channel, "fs": self._strip.rate, "span": self._strip.span}
-        for host in self._hosts.values():
-            out.update(host.controls())
-        return out
+    def _draw(self, data: bool) -> None:
+        self._ctl.draw(data)
 
-    def _view_problem(self, key: str, message: str | None) -> None:
-        if message is None:
-            self._session.errors.pop(f"view:{key}", None)
-        else:
-            self._session.errors[f"view:{key}"] = Problem(message, [key])
-        self._show_status()
-
-    # ------------------------------------------------------------------ control events
-    def _all_controls(self) -> dict[str, Any]:
-        out: dict[str, Any] = dict(self._data_controls())
-        out.update(self._binding.controls())
-        for host in self._hosts.values():
-            out.update(host.controls())
-        return out
-
-    def _propose(self, name: str, key: str) -> None:
-        try:
-            est = self._binding.build(name)
-        except SettingsError as e:
-            self._session.refuse(name, e, [key])
-            return
-        self._session.propose(name, est)
-        self._binding.relevance(name, est)
-
-    @_guarded
-    def _on_field(self, key: str) -> None:
-        self._changed.add(key)
-        for name in self._binding.owners(key):
-            self._propose(name, key)
-        self._request()
-
-    @_guarded
-    def _on_method(self, name: str) -> None:
-        if self._binding.applying:
-            return
-        slot = self._session.slots[name]
-        menu = self._binding.methods[name]
-        cls = next((c for c in slot.analysis.classes() if c.kind == menu.value), None)
-        self._changed.add(menu.key)
-        if cls is None:
-            kinds = [c.kind for c in slot.analysis.classes()]
-            self._session.errors[f"build:{name}"] = Problem(
-                f"Unknown method {menu.value!r} for the {slot.analysis.title or name} analysis; "
-                f"choose one of {kinds}.", [menu.key])
-            self._show_status()
-            return
-        est = self._session.switch_method(name, cls)
-        self._binding.show(name, est)
-        # the shared fields now follow the new method's table: the others rebuild from the strip
-        for other in self._session.slots:
-            if other != name:
-                self._propose(other, menu.key)
-        self._request()
-
-    @_guarded
-    def _on_selection(self, key: str) -> None:
-        if self._binding.applying:
-            return
-        self._changed.add(key)
-        s = self._session
-        base = s.next_sel or s.sel
-        span = self._strip.span.value
-        fs = self._strip.rate.value
-        channel = self._strip.channel.value
-        problem = check_selection(self._signal, channel, fs, span)
-        if problem is not None:
-            s.errors["data"] = Problem(problem[1], [problem[0]])
-            self._show_status()
-            return
-        if key == "fs" and span is not None and base is not None:
-            # the span follows the samples: rescale it to the new rate
-            old = base.fs or self._signal.fs
-            new = fs or self._signal.fs
-            if new != old:
-                span = (span[0] * old / new, span[1] * old / new)
-                self._binding.applying += 1
-                try:
-                    self._strip.span.set_value_quietly(span)
-                finally:
-                    self._binding.applying -= 1
-        s.errors.pop("data", None)
-        s.propose_selection(DataSelection(channel, None if fs is None else float(fs),
-                                          None if span is None else (float(span[0]), float(span[1]))))
-        self._request()
-
-    def _brushed(self, span) -> None:
-        self._strip.span.value = span
+    def _show_status(self) -> None:
+        self._ctl.show_status()
 
     # ------------------------------------------------------------------ compute
-    def _request(self) -> None:
-        self._scheduler.request()
-        if self._scheduler.pending() and self._slow:
-            self._statusline.computing()
-
     def flush(self) -> None:
         """Compute a deferred update now (for code that drives controls inside a kernel)."""
         self._scheduler.flush()
@@ -380,130 +273,10 @@ class Workbench(W.VBox):
         """
         return self._scheduler.cancel()
 
-    def _run(self, sync: bool = False) -> None:
-        """Compute what the pending settings need and put it on screen; never raises."""
-        try:
-            self._update(sync)
-        except Exception as e:  # never let an error escape into the event loop
-            _log.exception("Workbench: unexpected error")
-            self._session.errors["internal"] = Problem(internal_message(e))
-            self._show_status()
-
-    def _update(self, sync: bool) -> None:
-        t0 = time.perf_counter()
-        s = self._session
-        changed, self._changed = self._changed, set()
-        job = s.plan(changed)
-        if job is None:
-            self._show_status()
-            return
-        if not sync and self._scheduler.background_allowed():
-            expected = job.expected_seconds()
-            if expected > BACKGROUND_SECONDS:
-                self._expected = expected
-                self._started = t0
-                self._show_busy(job, 0.0)
-                self._scheduler.start(job, lambda f, job=job: self._show_busy(job, f),
-                                      lambda job, rerun: self._finished(job, rerun, changed))
-                return
-        job.execute()
-        self._finish(job, t0)
-
-    def _finished(self, job, rerun: bool, changed: set[str]) -> None:
-        """A background job ended (on the event-loop thread)."""
-        try:
-            self._statusline.hide_busy()
-            if job.cancelled:
-                self._changed |= changed
-                if rerun:
-                    self._run()
-                    return
-                self._session.notes = ["The computation was cancelled; "
-                                       + ("the last good estimate stays on screen."
-                                          if self._session.any_result else "nothing is on screen yet.")]
-                self._show_status()
-                return
-            self._finish(job, self._started)
-            if rerun:
-                self._run()
-        except Exception as e:
-            _log.exception("Workbench: unexpected error")
-            self._session.errors["internal"] = Problem(internal_message(e))
-            self._show_status()
-
-    def _finish(self, job, t0: float) -> None:
-        s = self._session
-        sel_before = s.sel
-        updated = s.commit(job)
-        for a in job.attempts.values():
-            for key, value in a.reverted:
-                self._binding.set_quietly(key, value)
-        if s.sel != sel_before:
-            ctx = Context(job.signal.n_samples, job.signal.fs)
-            self._binding.set_context(ctx)
-        if self._gap_note:
-            s.notes.insert(0, self._gap_note)
-            if s.main.result is not None:
-                self._gap_note = None
-        if s.main.result is not None:
-            s.errors.pop("nopin", None)
-        if updated:
-            self._binding.suggest()
-            self._draw(data=s.sel != sel_before or sel_before is None)
-            self._last_update = time.perf_counter() - t0
-            self._slow = self._last_update > 0.25
-        self._show_status()
-
-    def _show_busy(self, job, fraction: float) -> None:
-        names = ", ".join(slot.analysis.title or slot.name for slot, _ in job.todo)
-        self._statusline.show_busy(names, fraction, self._expected, self._scheduler.remaining(self._expected))
-
     @property
     def progress(self) -> float | None:
         """Fraction done of the background computation (None when none runs)."""
         return self._scheduler.progress if self._scheduler.busy else None
-
-    def _draw(self, data: bool) -> None:
-        """Update every mark, the readouts and the figures of merit in one synchronised step."""
-        s = self._session
-        holds = []
-        for host in self._hosts.values():
-            holds += host.holds()
-        holds += [self._merit.widget, self._strip.trace, self._strip.figure]
-        shown = {name: slot.shown for name, slot in s.slots.items() if slot.shown is not None}
-        with contextlib.ExitStack() as stack:
-            for w in holds:
-                stack.enter_context(w.hold_sync())
-            overlays: dict[str, list] = {}
-            for slot in s.slots.values():
-                if slot.shown is not None:
-                    for target, items in slot.analysis.overlays(slot.shown).items():
-                        overlays.setdefault(target, []).extend(items)
-            for name, host in self._hosts.items():
-                pinned = [(p.shown.get(name), p.color, p.line_style) for p in self._pins.items]
-                if hasattr(host, "set_overlays"):
-                    host.set_overlays(overlays.get(name, []))
-                host.show(shown.get(name), pinned)
-            merits = []
-            for slot in s.slots.values():
-                if slot.shown is not None:
-                    merits += slot.analysis.merits(slot.shown, shown)
-            if merits:
-                self._merit.show(merits)
-            if data and s.sel is not None:
-                sel = s.sel
-                sig = s.select(sel)
-                index = self._signal.channels.index(sel.channel)
-                unit = self._signal.units()[index]
-                self._strip.show(index, sig.fs, unit, sel.span, sig.n_samples)
-        if self._panel is not None and hasattr(self._panel, "mark_stale"):
-            with contextlib.suppress(Exception):
-                self._panel.mark_stale()
-
-    # ------------------------------------------------------------------ status
-    def _show_status(self) -> None:
-        self._binding.mark(self._data_controls())
-        self._statusline.show(status_of(self._session, self._last_update), bool(self._session.errors))
 
     # ------------------------------------------------------------------ pins
     def pin(self, label: str | None = None) -> Pin:
@@ -553,44 +326,7 @@ class Workbench(W.VBox):
 
     def set_estimator(self, name: str, est: Any) -> None:
         """Set the estimator of analysis ``name`` and recompute before returning (all or nothing)."""
-        self._set_from_code(self._wanted_with(name, est))
-
-    @_guarded
-    def _apply_from_ui(self, name: str, est: Any) -> None:
-        """A view proposes an estimator (e.g. an advised setting): shown in the controls and computed
-        like a control change (coalesced, in the background when long); a refusal goes to the status."""
-        s = self._session
-        try:
-            wanted = self._wanted_with(name, est)
-        except SpecbenchError as e:
-            s.errors[f"build:{name}"] = Problem(str(e))
-            self._show_status()
-            return
-        for n in s.slots:
-            s.errors.pop(f"build:{n}", None)
-        for n, e in wanted.items():
-            self._binding.show(n, e)
-            s.propose(n, e)
-        self._changed.add(self._binding.methods[name].key if name in self._binding.methods else "method")
-        self._request()
-
-    def _wanted_with(self, name: str, est: Any) -> dict[str, Any]:
-        """Every analysis's estimator once ``name`` takes ``est`` (the shared data fields follow)."""
-        s = self._session
-        slot = s.slots.get(name)
-        if slot is None:
-            raise SpecbenchError(f"No analysis named {name!r}; the analyses are {list(s.slots)}.")
-        est = slot.analysis.check(est)
-        wanted = {n: x.est for n, x in s.slots.items()}  # the others as on screen, with the shared fields
-        wanted[name] = est
-        shared = s.shared_fields({name: type(est)} if slot is s.main else None)
-        values = {k: getattr(est, k) for k in shared if k in type(est).params() and s.shares(slot, k, type(est))}
-        for n, x in s.slots.items():
-            if n != name:
-                own = {k: v for k, v in values.items() if s.shares(x, k)}
-                if own:
-                    wanted[n] = wanted[n].replace(**own)
-        return wanted
+        self._ctl.set_from_code(self._ctl.wanted_with(name, est))
 
     @property
     def estimator(self) -> Any:
@@ -612,34 +348,6 @@ class Workbench(W.VBox):
         if "acf" not in self._session.slots:
             raise SpecbenchError("This workbench has no autocorrelation analysis.")
         self.set_estimator("acf", corr)
-
-    def _set_from_code(self, wanted: dict[str, Any]) -> None:
-        """Apply estimators given in code, all or nothing, before returning.
-
-        A failing estimate leaves everything as it was (the controls included), says why
-        in the status line and raises the error to the caller.
-        """
-        s = self._session
-        self._scheduler.settle()
-        before = {n: x.est for n, x in s.slots.items()}
-        for n in s.slots:
-            s.errors.pop(f"build:{n}", None)
-        for n, est in wanted.items():
-            self._binding.show(n, est)
-            s.propose(n, est)
-        self._run(True)
-        if any(s.slots[n].est != est for n, est in wanted.items()):
-            msg = next((p.message for k, p in s.errors.items() if k in (*wanted, "data", "internal")),
-                       "The estimator could not be applied.")
-            for n in wanted:
-                s.errors.pop(n, None)
-            s.errors["code"] = Problem(msg)
-            for n, est in before.items():
-                self._binding.show(n, est)
-                s.slots[n].next = None
-            self._binding.mark(self._data_controls())
-            self._show_status()
-            raise InputError(msg)
 
     @property
     def channel(self) -> str | None:
@@ -676,13 +384,12 @@ class Workbench(W.VBox):
     @property
     def status(self) -> str:
         """The status line as plain text: the last update, a note, or why a setting failed."""
-        return self._statusline.current(status_of(self._session, self._last_update),
-                                        bool(self._session.errors)).text
+        return self._statusline.current(self._ctl.status(), bool(self._session.errors)).text
 
     @property
     def controls(self) -> types.MappingProxyType:
         """Control widgets by name (read-only mapping); set a control's ``value`` to drive it."""
-        return types.MappingProxyType(self._all_controls())
+        return types.MappingProxyType(self._ctl.all_controls())
 
     @property
     def figures(self) -> dict:

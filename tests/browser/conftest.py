@@ -441,9 +441,36 @@ class LabPage:
         return [text for text in self.stderr_outputs() if "Traceback" in text]
 
     def wait_for(self, selector: str, timeout: float = DEFAULT_TIMEOUT, state: str = "visible"):
-        """Wait for the first element matching `selector`; return its locator."""
-        locator = self.page.locator(selector).first
-        locator.wait_for(state=state, timeout=timeout)
+        """Wait for an element matching `selector` to reach `state`; return its locator.
+
+        For "visible", any matching element that becomes visible will do (the first match
+        in the DOM may be an empty path of a mark that draws no area), and the first match
+        is brought into view first, as a person scrolls to what they want to see: JupyterLab
+        skips rendering off-screen cells (``content-visibility``) and Run All leaves the
+        notebook scrolled to its last cell. On a timeout the error lists what the matching
+        elements looked like.
+        """
+        if state != "visible":
+            locator = self.page.locator(selector).first
+            locator.wait_for(state=state, timeout=timeout)
+            return locator
+        every = self.page.locator(selector)
+        every.first.wait_for(state="attached", timeout=timeout)
+        every.first.evaluate("el => el.scrollIntoView({block: 'center', inline: 'nearest'})")
+        locator = every.filter(visible=True).first
+        try:
+            locator.wait_for(state="visible", timeout=timeout)
+        except Exception as exc:
+            shapes = every.evaluate_all(
+                """els => els.slice(0, 20).map(el => {
+                    const r = el.getBoundingClientRect();
+                    return `${el.tagName} ${Math.round(r.left)},${Math.round(r.top)} `
+                        + `${Math.round(r.width)}x${Math.round(r.height)} `
+                        + `d=${(el.getAttribute('d') || '').slice(0, 30)}`;
+                })"""
+            )
+            raise AssertionError(f"no element matching {selector!r} became visible in {timeout / 1000:g} s; "
+                                 f"{len(shapes)} matched: {shapes}") from exc
         return locator
 
     def screenshot(self, label: str = "", *, show: str | None = None) -> Path:

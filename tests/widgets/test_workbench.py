@@ -310,8 +310,10 @@ class TestFromCode:
 class TestCoalescing:
     def test_changes_faster_than_the_compute_are_coalesced(self, bench, monkeypatch):
         runs = []
-        run = type(bench)._run
-        monkeypatch.setattr(type(bench), "_run", lambda self: (runs.append(1), run(self)))
+        from specbench.widgets._controller import Controller
+
+        run = Controller.run
+        monkeypatch.setattr(Controller, "run", lambda self, *a: (runs.append(1), run(self, *a)))
 
         async def main():
             for v in (0.1, 0.2, 0.3, 0.4):
