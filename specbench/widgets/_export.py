@@ -141,22 +141,31 @@ def figure_svg(figure: Any, x0: float, y0: float, width: float, height: float, *
                roles: dict[int, str] | None = None, theme: str = "light") -> tuple[str, list[dict]]:
     """The SVG elements drawing ``figure`` in the box (x0, y0, width, height), and a record per trace.
 
-    ``roles`` names the role of a mark by its ``id()`` (``band``, ``line``, ``pin-band``, ``pin``);
-    unnamed marks are ``line`` (or ``band`` when filled).  Marks other than ``Lines`` and
-    ``Scatter``, and marks on a y scale other than the axis's, are not drawn.
+    ``roles`` names the role of a mark by its ``id()`` (``band``, ``line``, ``pin-band``, ``pin``,
+    ``cursor``, ``model``); unnamed marks are ``line`` (or ``band`` when filled).  ``Lines``,
+    ``Scatter`` and ``Label`` marks are drawn, hidden ones (``visible=False``) not.  A mark on a
+    y scale of its own with fixed ``min``/``max`` (the measurement cursors span the plot's
+    height on a 0..1 scale) is drawn on that scale; a mark on any other y scale is not drawn.
     """
     colours = THEMES[theme]
     margin = getattr(figure, "fig_margin", None) or {"top": 12, "bottom": 46, "left": 72, "right": 30}
     left, right = x0 + margin["left"], x0 + width - margin["right"]
     top, bottom = y0 + margin["top"], y0 + height - margin["bottom"]
-    marks = [m for m in figure.marks if type(m).__name__ in ("Lines", "Scatter")]
+    marks = [m for m in figure.marks if type(m).__name__ in ("Lines", "Scatter", "Label")
+             and getattr(m, "visible", True) is not False]
     axes = list(figure.axes)
     xscale = next((a.scale for a in axes if a.orientation != "vertical"), marks[0].scales["x"] if marks else None)
     yscale = next((a.scale for a in axes if a.orientation == "vertical"), marks[0].scales["y"] if marks else None)
-    # marks on a scale of their own (e.g. the measurement cursors, full height) are not drawn
-    marks = [m for m in marks if m.scales.get("y") is yscale or yscale is None]
-    xs_all = [np.asarray(m.x, dtype=float).ravel() for m in marks]
-    ys_all = [np.asarray(m.y, dtype=float).ravel() for m in marks]
+
+    def own_scale(m) -> bool:  # a fixed scale of the mark's own, e.g. 0..1 over the plot's height
+        s = m.scales.get("y")
+        return s is not yscale and s is not None and getattr(s, "min", None) is not None \
+            and getattr(s, "max", None) is not None and not _is_log(s)
+
+    marks = [m for m in marks if yscale is None or m.scales.get("y") is yscale or own_scale(m)]
+    on_axis = [m for m in marks if not own_scale(m) and type(m).__name__ != "Label"]
+    xs_all = [np.asarray(m.x, dtype=float).ravel() for m in on_axis]
+    ys_all = [np.asarray(m.y, dtype=float).ravel() for m in on_axis]
     mx = _Map(xscale, *_domain(xscale, xs_all), left, right)
     my = _Map(yscale, *_domain(yscale, ys_all), bottom, top)
     out: list[str] = []
@@ -201,11 +210,32 @@ def figure_svg(figure: Any, x0: float, y0: float, width: float, height: float, *
     roles = roles or {}
     for mark in marks:
         role = roles.get(id(mark))
-        x = np.asarray(mark.x, dtype=float).ravel()
+        my_m = (_Map(mark.scales["y"], float(mark.scales["y"].min), float(mark.scales["y"].max), bottom, top)
+                if own_scale(mark) else my)
+        if type(mark).__name__ == "Label":
+            colour = (list(mark.colors) or [CURRENT])[0]
+            px = mx(np.asarray(mark.x, dtype=float).ravel())
+            py = my_m(np.asarray(mark.y, dtype=float).ravel())
+            dx, dy = float(getattr(mark, "x_offset", 0) or 0), float(getattr(mark, "y_offset", 0) or 0)
+            anchor = {"start": "start", "end": "end"}.get(getattr(mark, "align", "start"), "middle")
+            size = float(getattr(mark, "default_size", TICK_FONT_PX) or TICK_FONT_PX)
+            bold = ' font-weight="bold"' if getattr(mark, "font_weight", "") == "bold" else ""
+            texts = list(mark.text)
+            shown = 0
+            for a, b, t in zip(px, py, texts):
+                if np.isfinite(a) and np.isfinite(b):
+                    out.append(f'<text class="sb-label" data-view="{_esc(view)}" data-role="{_esc(role or "label")}" '
+                               f'x="{a + dx:.2f}" y="{b + dy:.2f}" text-anchor="{anchor}" font-size="{size:.3g}"'
+                               f'{bold} fill="{colour}">{_esc(t)}</text>')
+                    shown += 1
+            records.append({"view": view, "role": role or "label", "points": shown, "colour": colour})
+            continue
+        x = np.asarray(mark.x, dtype=float)
         y = np.asarray(mark.y, dtype=float)
         if type(mark).__name__ == "Scatter":
+            x = x.ravel()
             colour = (list(mark.colors) or [CURRENT])[0]
-            px, py = mx(x), my(y.ravel())
+            px, py = mx(x), my_m(y.ravel())
             ok = np.isfinite(px) & np.isfinite(py)
             if role == "pin-marker":
                 marker = getattr(mark, "marker", "circle")
@@ -218,21 +248,34 @@ def figure_svg(figure: Any, x0: float, y0: float, width: float, height: float, *
                 records.append({"view": view, "role": role, "points": int(ok.sum()), "colour": colour,
                                 "marker": marker})
                 continue
-            for a, b in zip(px[ok], py[ok]):
-                out.append(f'<circle cx="{a:.2f}" cy="{b:.2f}" r="2.5" fill="{colour}"/>')
-            records.append({"view": view, "role": role or "points", "points": int(ok.sum())})
+            marker = getattr(mark, "marker", "circle")
+            if role == "cursor":  # e.g. the peak marker of the measurements: its own shape and size
+                size = float(getattr(mark, "default_size", MARKER_SIZE))
+                out.append(f'<g class="sb-markers" data-view="{_esc(view)}" data-role="cursor" '
+                           f'data-marker="{_esc(marker)}" data-points="{int(ok.sum())}">')
+                out += [_marker_svg(marker, colour, a, b, size) for a, b in zip(px[ok], py[ok])]
+                out.append("</g>")
+            else:
+                for a, b in zip(px[ok], py[ok]):
+                    out.append(f'<circle cx="{a:.2f}" cy="{b:.2f}" r="2.5" fill="{colour}"/>')
+            records.append({"view": view, "role": role or "points", "points": int(ok.sum()), "colour": colour,
+                            "marker": marker})
             continue
         rows = np.atleast_2d(y)
+        xrows = np.atleast_2d(x)  # one x per line, or one shared by every line
+        if xrows.shape[0] not in (1, rows.shape[0]):
+            continue
+        x = xrows[0]
         colours_m = list(mark.colors) or [CURRENT]
         if getattr(mark, "fill", "none") == "between" and rows.shape[0] == 2:
             fill = (list(mark.fill_colors) or colours_m)[0]
             opacity = (list(mark.fill_opacities) or [1.0])[0]
             upper, lower = rows[0], rows[1]
-            ok = np.isfinite(mx(x)) & np.isfinite(my(upper)) & np.isfinite(my(lower))
+            ok = np.isfinite(mx(x)) & np.isfinite(my_m(upper)) & np.isfinite(my_m(lower))
             if ok.sum() >= 2:
                 xp = mx(x[ok])
-                d = "M" + "L".join(f"{a:.2f},{b:.2f}" for a, b in zip(xp, my(upper[ok])))
-                d += "L" + "L".join(f"{a:.2f},{b:.2f}" for a, b in zip(xp[::-1], my(lower[ok])[::-1])) + "Z"
+                d = "M" + "L".join(f"{a:.2f},{b:.2f}" for a, b in zip(xp, my_m(upper[ok])))
+                d += "L" + "L".join(f"{a:.2f},{b:.2f}" for a, b in zip(xp[::-1], my_m(lower[ok])[::-1])) + "Z"
                 role_b = role or "band"
                 out.append(f'<path class="sb-trace" data-view="{_esc(view)}" data-role="{role_b}" '
                            f'data-points="{int(ok.sum())}" d="{d}" fill="{fill}" fill-opacity="{opacity:.3g}" '
@@ -241,9 +284,12 @@ def figure_svg(figure: Any, x0: float, y0: float, width: float, height: float, *
                                 "opacity": float(opacity)})
             continue
         width_px = float(getattr(mark, "stroke_width", 1.5) or 1.5)
+        opacities = list(getattr(mark, "opacities", None) or [])
         for i, row in enumerate(rows):
             colour = colours_m[i % len(colours_m)]
-            d, n = _path(mx(x), my(row))
+            if opacities and float(opacities[i % len(opacities)]) == 0:
+                continue  # drawn invisible on screen
+            d, n = _path(mx(xrows[i] if xrows.shape[0] > 1 else x), my_m(row))
             if not n:
                 continue
             role_l = role or "line"
@@ -389,6 +435,11 @@ def _roles(view: Any) -> dict[int, str]:
     for attr, role in (("pin_bands", "pin-band"), ("pin_lines", "pin"), ("pin_markers", "pin-marker")):
         for m in getattr(view, attr, None) or []:
             roles[id(m)] = role
+    for m in (getattr(view, "overlay_lines", None) or {}).values():  # models of other analyses
+        roles[id(m)] = "model"
+    for layer in getattr(view, "layers", None) or []:  # measurement cursors
+        for m in layer.marks():
+            roles[id(m)] = "cursor"
     return roles
 
 

@@ -105,6 +105,11 @@ def marker_path(marker: str, size: float = MARKER_SIZE) -> str:
     if marker == "crosshair":
         h = math.sqrt(size) / 2
         return f"M{f(-h)},{f(-h)}L{f(h)},{f(h)}M{f(-h)},{f(h)}L{f(h)},{f(-h)}"
+    if marker == "arrow":  # bqplot's arrow at its default skew 0.5: an apex angle of 60 - 55 * 0.5 degrees
+        t = math.tan(math.radians(60 - 55 * 0.5))
+        s = math.sqrt(size / t)
+        r = s * t / 2
+        return f"M0,{f(-s)}L{f(r)},{f(s)} {f(-r)},{f(s)}Z"
     raise ValueError(f"no SVG form for the marker {marker!r}; the pin markers are {PIN_MARKERS}")
 
 

@@ -145,3 +145,71 @@ def test_export_draws_every_pins_look(sig, tmp_path):
             assert shapes[0].get("d") == _style.marker_path(g.get("data-marker"))
     legend = root.findall(f".//{SVG}g[@class='sb-legend-item']")
     assert len(legend) == 9 and all(item.find(f"{SVG}path") is not None for item in legend[1:])
+
+
+def _plot_frame(root):
+    """(left, top, right, bottom) of the first plot's frame in an exported picture."""
+    frame = [r for r in root.iter(f"{SVG}rect") if r.get("fill") == "none"][0]
+    left, top = float(frame.get("x")), float(frame.get("y"))
+    return left, top, left + float(frame.get("width")), top + float(frame.get("height"))
+
+
+def _points(d):
+    return np.array([[float(v) for v in xy.split(",")] for xy in re.findall(r"[-\d.]+,[-\d.]+", d)])
+
+
+def test_the_measurement_cursors_are_exported_where_they_are_drawn(tmp_path):
+    """The band cursor (a shade over the plot's full height between its edges), the peak marker
+    at the strongest tone and the harmonic cursors with their labels are in the picture, at the
+    frequencies the view draws them (the x axis's scale, linear or logarithmic, as on screen)."""
+    fs, n = 1000.0, 100_000
+    t = np.arange(n) / fs
+    x = 0.1 * np.random.default_rng(5).standard_normal(n) + 0.5 * np.sin(2 * np.pi * 50.3 * t)
+    bench = sb.Workbench(sb.Signal(x, fs=fs, unit="m/s^2"), analyses=[sb.widgets.SpectrumAnalysis()])
+    host = bench.views["psd"]
+    host.table.set_band(100.0, 150.0)
+
+    def px(f, left, right):
+        xs = host.view.xs
+        lo, hi = float(xs.min), float(xs.max)
+        if type(xs).__name__ == "LogScale":
+            f, lo, hi = np.log10(f), np.log10(lo), np.log10(hi)
+        return left + (f - lo) / (hi - lo) * (right - left)
+
+    root = ET.parse(bench.export(tmp_path / "band.svg")).getroot()
+    left, top, right, bottom = _plot_frame(root)
+    cursors = [p for p in root.iter(f"{SVG}path") if p.get("data-role") == "cursor"]
+    shade = [p for p in cursors if p.get("fill") == _style.MARKER]
+    assert len(shade) == 1 and float(shade[0].get("fill-opacity")) == pytest.approx(_style.MARKER_BAND_OPACITY)
+    pts = _points(shade[0].get("d"))
+    assert pts[:, 0].min() == pytest.approx(px(100.0, left, right), abs=0.02)
+    assert pts[:, 0].max() == pytest.approx(px(150.0, left, right), abs=0.02)
+    assert pts[:, 1].min() == pytest.approx(top, abs=0.02) and pts[:, 1].max() == pytest.approx(bottom, abs=0.02)
+    edges = [p for p in cursors if p.get("stroke") == _style.MARKER]
+    assert len(edges) == 2
+    for path, f in zip(edges, (100.0, 150.0)):
+        (x1, y1), (x2, y2) = _points(path.get("d"))
+        assert x1 == x2 == pytest.approx(px(f, left, right), abs=0.02)
+        assert sorted((y1, y2)) == pytest.approx([top, bottom], abs=0.02)
+    tone = host.measure.last.tones.result[0]
+    peak = [g for g in root.iter(f"{SVG}g") if g.get("data-role") == "cursor"]
+    assert len(peak) == 1 and peak[0].get("data-marker") == "arrow" and peak[0].get("data-points") == "1"
+    shift = re.match(r"translate\(([-\d.]+),", peak[0][0].get("transform"))
+    assert float(shift.group(1)) == pytest.approx(px(tone.freq, left, right), abs=0.02)
+    labels = ["".join(t.itertext()) for t in root.iter(f"{SVG}text") if t.get("data-role") == "cursor"]
+    assert labels == list(host.layer.peak_label.text)
+
+    # a tone clicked: the view zooms on it and the harmonic cursors (dotted, labelled) appear
+    host.table.harmonic_count.value = 3
+    host.table.tone_buttons[0].click()
+    assert host.layer.harmonics.visible
+    root = ET.parse(bench.export(tmp_path / "harmonics.svg")).getroot()
+    left, top, right, bottom = _plot_frame(root)
+    dotted = [p for p in root.iter(f"{SVG}path") if p.get("data-role") == "cursor"
+              and p.get("stroke-dasharray") == _style.DASH_ARRAY["dotted"]]
+    drawn_x = np.atleast_2d(np.asarray(host.layer.harmonics.x, dtype=float))[:, 0]
+    assert len(dotted) == len(drawn_x) >= 1
+    assert [_points(p.get("d"))[0, 0] for p in dotted] == pytest.approx([px(f, left, right) for f in drawn_x],
+                                                                         abs=0.02)
+    labels = ["".join(t.itertext()) for t in root.iter(f"{SVG}text") if t.get("data-role") == "cursor"]
+    assert [lab for lab in labels if lab.endswith("×")] == list(host.layer.harmonic_labels.text)
