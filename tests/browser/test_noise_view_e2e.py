@@ -27,6 +27,11 @@ def test_noise_view_renders_with_its_term_table(lab):
     lines = lab.page.locator(f"{view} path.line")
     drawn = [d for d in (lines.nth(i).get_attribute("d") or "" for i in range(lines.count())) if d.count("L") > 5]
     assert len(drawn) >= 4, drawn
+    # the estimate's points (one per averaging time) are drawn large enough to see: about 8 px
+    # across, on both themes (they were 4 px specks, hard to find on the dark theme)
+    dots = lab.page.evaluate(f"""() => [...document.querySelectorAll('{view} path.dot')]
+        .map(d => d.getBoundingClientRect()).filter(r => r.width > 0).map(r => [r.width, r.height])""")
+    assert dots and min(min(wh) for wh in dots) >= 7, dots
     table = lab.page.locator(".sb-view-noise .sb-term-table").first.inner_text()
     for text in ("white noise", "Gauss-Markov", "sigma", "tau", "interval"):
         assert text in table, table
