@@ -41,7 +41,11 @@ def _trace(freq, value, lower, upper, unit, lo, hi, log=False) -> Trace:
     interior = (red.index > 0) & (red.index < f.size - 1)
     yr = _yrange([y[interior], lo_env[interior], hi_env[interior]], log)
     if log:
-        y, lo_env, hi_env = (np.where(q > 0, q, np.nan) for q in (y, lo_env, hi_env))
+        # a lower bound of 0 (gain unknown below: incoherent bins) cannot sit on a log axis: the
+        # band then reaches the lowest value shown instead of leaving a hole in the band
+        floor = yr[0] if yr is not None else np.nan
+        lo_env = np.where(lo_env > 0, lo_env, np.where(hi_env > 0, np.minimum(floor, hi_env), np.nan))
+        y, hi_env = (np.where(q > 0, q, np.nan) for q in (y, hi_env))
     return Trace(x.astype(float), y.astype(float), lo_env.astype(float), hi_env.astype(float), unit, yr,
                  int(freq.size))
 

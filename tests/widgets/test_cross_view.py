@@ -161,3 +161,17 @@ def test_plain_scipy_cell_reproduces_the_cross_numbers_on_screen():
 def test_plain_scipy_cell_of_a_single_channel_record_has_no_cross_lines():
     wb = Workbench(sb.demo("white-noise", duration=5.0))
     assert "cross_" not in wb.code(style="scipy")
+
+
+def test_gain_band_reaching_zero_is_drawn_to_the_axis_floor_on_the_log_scale():
+    # incoherent bins have gain_lower = 0 (Goodman's circle reaches the origin): on the log axis
+    # the band must reach the lowest value shown, not leave holes (NaN) in the band
+    from specbench.widgets._cross_view import _trace
+
+    f = np.linspace(0.0, 100.0, 201)
+    value = np.full(f.size, 0.1)
+    lower = np.where(f > 50, 0.0, 0.08)
+    upper = np.full(f.size, 0.3)
+    t = _trace(f, value, lower, upper, "", None, None, log=True)
+    assert np.all(np.isfinite(t.lower)) and np.all(t.lower > 0)
+    assert np.min(t.lower) == pytest.approx(0.08)  # the floor: the lowest positive value shown
