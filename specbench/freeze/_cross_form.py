@@ -20,6 +20,7 @@ from typing import Any
 import numpy as np
 
 from ..estimators import Covariance, CrossSpectrum
+from ..estimators.cross import GAIN_CIRCLE_RATIO
 from ._describe import one_line, origin_call, py, wrap_comment
 from ._scipy_form import register_plain_form
 from ._writers import AnalysisWriter, register_writer, write_table
@@ -151,8 +152,7 @@ def plain_cross_lines(est: CrossSpectrum, x: str, y: str, *, fs: str = "fs", pre
         f"{p}coherence_upper = np.maximum({p}coherence_upper, {p}coherence_lower)",
         "# phase and H1 gain: normalised random error sqrt(1 - g^2) / (|g| sqrt(2 (n_d - 1)))",
         "# (Bendat & Piersol 2010 Table 9.6), Student t quantile with 2 n_d - 2 degrees of freedom;",
-        "# where the coherence is not significant the phase is unknown (+-pi) and the gain is bounded",
-        "# by |gamma| sqrt(G_yy / G_xx) at the upper coherence",
+        "# where the coherence is not significant the phase is unknown (+-pi)",
         f"{p}transfer = {p}csd / {p}gxx",
         f"{p}gain, {p}phase = np.abs({p}transfer), np.angle({p}csd)",
         f"{p}eps = np.sqrt(np.clip(1.0 - {p}coherence, 0.0, None) / (2.0 * ({p}nd - 1.0)))",
@@ -161,10 +161,14 @@ def plain_cross_lines(est: CrossSpectrum, x: str, y: str, *, fs: str = "fs", pre
         f"{p}significant = {p}coherence > {p}threshold",
         f"{p}half = np.where({p}significant, np.minimum({p}t * {p}eps, np.pi), np.pi)",
         f"{p}phase_lower, {p}phase_upper = {p}phase - {p}half, {p}phase + {p}half",
-        f"{p}gain_lower = np.where({p}significant, {p}gain * np.exp(-{p}t * {p}eps), 0.0)",
-        f"{p}gain_bound = np.sqrt({p}coherence_upper * {p}gyy / {p}gxx)  # |H1| = |gamma| sqrt(G_yy / G_xx)",
-        f"{p}gain_bound = np.maximum({p}gain_bound, {p}gain)",
-        f"{p}gain_upper = np.where({p}significant, {p}gain * np.exp({p}t * {p}eps), {p}gain_bound)",
+        "# gain: |H1| exp(+-t eps), or where Goodman's (1965) confidence circle of H1, radius^2 =",
+        "# F_(2, 2 n_d - 2) (1 - g^2) G_yy / ((n_d - 1) G_xx), reaches 0.35 |H1| (low coherence), the",
+        "# circle's gain range |H1| +- radius",
+        f"{p}fq = scipy.stats.f.ppf({p}confidence, 2.0, np.maximum(2.0 * {p}nd - 2.0, 1.0))",
+        f"{p}radius = np.sqrt({p}fq / ({p}nd - 1.0) * np.clip(1.0 - {p}coherence, 0.0, None) * {p}gyy / {p}gxx)",
+        f"{p}wide = ~({p}radius < {GAIN_CIRCLE_RATIO!r} * {p}gain)",
+        f"{p}gain_lower = np.where({p}wide, np.maximum({p}gain - {p}radius, 0.0), {p}gain * np.exp(-{p}t * {p}eps))",
+        f"{p}gain_upper = np.where({p}wide, {p}gain + {p}radius, {p}gain * np.exp({p}t * {p}eps))",
     ]
     return lines
 

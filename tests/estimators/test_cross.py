@@ -7,6 +7,7 @@ import warnings
 import numpy as np
 import pytest
 import scipy.signal as ss
+from scipy import stats
 
 import specbench as sb
 
@@ -153,7 +154,70 @@ def test_coherence_phase_gain_bands_cover_at_nominal_for_a_known_filter():
         cover["gain"].append((r.gain_lower <= np.abs(h)) & (np.abs(h) <= r.gain_upper))
     for name, hits in cover.items():
         rate = np.mean(np.array(hits)[:, inner])
-        assert rate == pytest.approx(0.9, abs=0.025), (name, rate)
+        if name == "gain":  # Goodman's circle at low coherence: at least nominal
+            assert 0.9 - 0.01 <= rate <= 0.95, (name, rate)
+        else:
+            assert rate == pytest.approx(0.9, abs=0.025), (name, rate)
+
+
+@pytest.mark.slow
+@pytest.mark.parametrize("overlap, confidence", [(0.0, 0.95), (0.5, 0.9)])
+def test_gain_band_covers_at_least_nominal_at_every_coherence_level(overlap, confidence):
+    # Monte Carlo, 200 records at each of three noise levels: y = lfilter(butter(2, 0.3)) x + noise,
+    # true |H| and coherence from scipy.signal.freqz (outside reference), bins grouped by true
+    # coherence.  The log band alone covered 0.90-0.92 at a nominal 0.95 below coherence 0.2
+    # (Bendat & Piersol's error is first order); with Goodman's (1965) circle there it covers
+    # 0.97-0.99, and within 0.01 of nominal above coherence 0.3.
+    rng = np.random.default_rng(6)
+    b, a = ss.butter(2, 0.3)
+    xs = sb.CrossSpectrum(segment_length=256, overlap=overlap, confidence=confidence)
+    edges = np.array([0.0, 0.05, 0.1, 0.2, 0.3, 0.5, 0.7, 0.9])
+    hits = np.zeros(edges.size - 1)
+    count = np.zeros(edges.size - 1)
+    circle_hits = np.zeros(edges.size - 1)
+    for noise in (0.5, 2.0, 5.0):
+        for k in range(200):
+            x = rng.standard_normal(8192)
+            y = ss.lfilter(b, a, x) + noise * rng.standard_normal(8192)
+            r = xs(x, y, fs=FS)
+            if k == 0:
+                _, h = ss.freqz(b, a, worN=r.freq, fs=FS)
+                g2 = np.abs(h) ** 2 / (np.abs(h) ** 2 + noise**2)
+                group = np.digitize(g2, edges)[1:-1] - 1
+                nd = r.independent_bins
+                fq = stats.f.ppf(confidence, 2, 2 * nd - 2)
+            np.add.at(hits, group, ((r.gain_lower <= np.abs(h)) & (np.abs(h) <= r.gain_upper))[1:-1])
+            radius = np.sqrt(fq / (nd - 1) * (1 - r.coherence) * r.psd[1] / r.psd[0])
+            np.add.at(circle_hits, group, (np.abs(r.transfer - h) <= radius)[1:-1])
+            np.add.at(count, group, 1)
+    rate, circle = hits / count, circle_hits / count
+    # the circle itself (Goodman 1965) covers H at the nominal level at every coherence
+    np.testing.assert_allclose(circle, confidence, atol=0.012)
+    assert np.all(rate >= confidence - 0.012), rate
+    assert np.all(np.abs(rate[edges[:-1] >= 0.3] - confidence) <= 0.012), rate
+
+
+def test_phase_variance_matches_the_sample_phase_density():
+    # The phase-slope weights use (1 - g^2) / (2 (n_d - 1) g^2).  Against the density of the
+    # phase of an n-look sample cross spectrum (Lee, Hoppel, Mango & Miller 1994, IEEE TGRS
+    # 32(5), eq. for pdf(phi); memory), integrated numerically: within 5 % for g^2 >= 0.5
+    # (with n - 1; the form with n is low).
+    from scipy import integrate, special
+
+    def density(phi, n, g):
+        b = g * np.cos(phi)
+        lead = np.exp(special.gammaln(n + 0.5) - special.gammaln(n) + n * np.log1p(-g * g)
+                      - (n + 0.5) * np.log1p(-b * b)) * b / (2 * np.sqrt(np.pi))
+        return lead + (1 - g * g) ** n / (2 * np.pi) * special.hyp2f1(n, 1, 0.5, b * b)
+
+    for n in (14, 30, 60):
+        for g2 in (0.5, 0.8, 0.95):
+            g = math.sqrt(g2)
+            total = integrate.quad(density, -np.pi, np.pi, args=(n, g))[0]
+            var = integrate.quad(lambda p, n, g: p * p * density(p, n, g), -np.pi, np.pi, args=(n, g))[0]
+            assert total == pytest.approx(1.0, abs=1e-6)
+            assert var == pytest.approx((1 - g2) / (2 * (n - 1) * g2), rel=0.05), (n, g2)
+            assert var > (1 - g2) / (2 * n * g2)
 
 
 def _delayed_records(rng, records, n, d, noise):
