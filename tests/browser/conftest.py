@@ -528,7 +528,15 @@ def lab(request, chromium, lab_server):
                 print(f"no failure screenshot: {error}")
             print("browser console:\n" + "\n".join(helper.console[-40:]))
             print("server log:\n" + lab_server.log_tail())
+        if os.environ.get("SB_CONSOLE_LOG"):  # every console message of every test, for diagnosis
+            with open(os.environ["SB_CONSOLE_LOG"], "a") as log:
+                log.writelines(f"{request.node.nodeid}\t{m}\n" for m in helper.console)
         context.close()
         lab_server.shutdown_sessions(helper.folder)
         helper.timings["total"] = time.perf_counter() - start
         _TIMINGS.append((request.node.nodeid, helper.timings))
+    # a mark handed NaN coordinates: the browser refuses the path and keeps the old one, so
+    # what is on screen is not what was sent (e.g. a band's lower bound of 0 on a log axis)
+    nan_paths = [m for m in helper.console if "Expected number" in m and "NaN" in m]
+    if nan_paths and not request.node.stash.get(_CALL_FAILED, False):
+        pytest.fail(f"{len(nan_paths)} path(s) with NaN coordinates were drawn: {nan_paths[:3]}")
