@@ -298,6 +298,16 @@ def figure_svg(figure: Any, x0: float, y0: float, width: float, height: float, *
                        f'{_dash(getattr(mark, "line_style", "solid"))} stroke-linejoin="round"/>')
             records.append({"view": view, "role": role_l, "points": n, "colour": colour,
                             "dash": getattr(mark, "line_style", "solid")})
+            marker = getattr(mark, "marker", None)
+            if marker:  # a point at every sample of the line (e.g. the Allan deviation's taus)
+                xm = xrows[i] if xrows.shape[0] > 1 else x
+                pxm, pym = mx(xm), my_m(row)
+                ok = np.isfinite(pxm) & np.isfinite(pym)
+                size = float(getattr(mark, "marker_size", MARKER_SIZE) or MARKER_SIZE)
+                out.append(f'<g class="sb-markers" data-view="{_esc(view)}" data-role="{role_l}-points" '
+                           f'data-marker="{_esc(marker)}" data-points="{int(ok.sum())}">')
+                out += [_marker_svg(marker, colour, a, b, size) for a, b in zip(pxm[ok], pym[ok])]
+                out.append("</g>")
     out.append("</g>")
     out.append(f'<rect x="{left:.2f}" y="{top:.2f}" width="{right - left:.2f}" height="{bottom - top:.2f}" '
                f'fill="none" stroke="{colours["axis"]}" stroke-width="0.8"/>')
@@ -447,12 +457,16 @@ def bench_views(bench: Any) -> list[tuple[str, Any, dict[int, str]]]:
     """(title, figure, roles) of the workbench's views, as :func:`views_svg` takes them."""
     out = []
     for name, host in _view_objects(bench):
-        view = getattr(host, "view", host)  # a view host wraps the view of its analysis
-        figure = getattr(host, "figure", None) or getattr(view, "figure", None)
-        if figure is None:
-            continue
-        title = _plain(getattr(getattr(view, "title", None), "value", "")) or getattr(view, "title", "") or name
-        out.append((str(title), figure, _roles(view)))
+        # a view host wraps the view of its analysis, or several (the cross view: coherence,
+        # phase and gain, each a figure of its own)
+        many = getattr(host, "views", None)
+        views = list(many) if isinstance(many, (list, tuple)) and many else [getattr(host, "view", host)]
+        for view in views:
+            figure = getattr(view, "figure", None) or (getattr(host, "figure", None) if len(views) == 1 else None)
+            if figure is None:
+                continue
+            title = _plain(getattr(getattr(view, "title", None), "value", "")) or getattr(view, "title", "") or name
+            out.append((str(title), figure, _roles(view)))
     return out
 
 

@@ -213,3 +213,19 @@ def test_the_measurement_cursors_are_exported_where_they_are_drawn(tmp_path):
                                                                          abs=0.02)
     labels = ["".join(t.itertext()) for t in root.iter(f"{SVG}text") if t.get("data-role") == "cursor"]
     assert [lab for lab in labels if lab.endswith("×")] == list(host.layer.harmonic_labels.text)
+
+
+def test_every_figure_of_every_analysis_is_exported_with_the_points_the_view_draws(tmp_path):
+    """The cross view's three figures (coherence, phase, gain) each get a panel of their own, and
+    the Allan deviation's points (a marker on every averaging time) are in the picture."""
+    bench = sb.Workbench(sb.demo("test-stand", duration=20))
+    root = ET.parse(bench.export(tmp_path / "all.svg")).getroot()
+    titles = ["".join(t.itertext()) for t in root.iter(f"{SVG}text") if t.get("font-weight") == "bold"]
+    cross = [v.title.value if hasattr(v.title, "value") else v.title for v in bench.views["cross"].views]
+    assert len(cross) == 3 and all(any(c in t for t in titles) for c in ("Coherence", "Phase", "Gain")), titles
+    points = [g for g in root.iter(f"{SVG}g") if g.get("data-role") == "line-points"]
+    taus = bench.result("noise").allan.tau
+    adev = bench.result("noise").allan.value
+    assert len(points) == 1 and points[0].get("data-marker") == "circle"
+    assert int(points[0].get("data-points")) == int(np.sum(np.isfinite(adev) & (adev > 0))) == len(points[0]) > 0
+    assert taus.size >= len(points[0])
