@@ -58,7 +58,6 @@ ENTRY_WIDTH = "84px"
 LOG_STEP = 0.01
 
 
-
 def _pow2_floor(n: float) -> int:
     return 1 << max(0, int(math.floor(math.log2(max(1.0, n)))))
 

@@ -20,11 +20,11 @@ import numpy as np
 
 from .._errors import SpecbenchError
 from ._analysis import Analysis, register_analysis
-from ._merit import Merit
+from ._merit import Merit, fmt
 from ._reduce import reduce_sorted
 from ._style import CURRENT, gapped
 from ._viewhost import DisplayOption
-from ._views import Trace, _TraceView, _yrange, fmt
+from ._views import Trace, _TraceView, _yrange
 
 __all__ = ["CrossAnalysis", "CrossHost"]
 

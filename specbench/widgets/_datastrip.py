@@ -17,9 +17,10 @@ import ipywidgets as W
 import numpy as np
 
 from ._controls import ENTRY_WIDTH, ChoiceControl, FieldControl, _assign
+from ._merit import fmt
 from ._reduce import overview
 from ._style import AXIS_LABEL, CURRENT, gapped
-from ._views import fmt, linear_ticks
+from ._views import linear_ticks
 
 __all__ = ["DataStrip", "RateControl", "SpanControl"]
 

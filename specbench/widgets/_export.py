@@ -72,6 +72,15 @@ def _marker_svg(marker: str, colour: str, x: float, y: float, size: float = MARK
     return f'<path transform="translate({x:.2f},{y:.2f})" d="{marker_path(marker, size)}" {paint}/>'
 
 
+def _markers_svg(view: str, role: str, marker: str, colour: str, px: np.ndarray, py: np.ndarray,
+                 size: float, stroke_width: float = MARKER_STROKE) -> list[str]:
+    """A ``<g class="sb-markers">`` of ``marker`` shapes at the finite points (px, py)."""
+    ok = np.isfinite(px) & np.isfinite(py)
+    return [f'<g class="sb-markers" data-view="{_esc(view)}" data-role="{_esc(role)}" '
+            f'data-marker="{_esc(marker)}" data-points="{int(ok.sum())}">',
+            *(_marker_svg(marker, colour, a, b, size, stroke_width) for a, b in zip(px[ok], py[ok])), "</g>"]
+
+
 def _esc(text: Any) -> str:
     return html.escape(str(text), quote=True)
 
@@ -241,20 +250,14 @@ def figure_svg(figure: Any, x0: float, y0: float, width: float, height: float, *
                 marker = getattr(mark, "marker", "circle")
                 size = float(getattr(mark, "default_size", MARKER_SIZE))
                 width_m = float(getattr(mark, "stroke_width", MARKER_STROKE) or MARKER_STROKE)
-                out.append(f'<g class="sb-markers" data-view="{_esc(view)}" data-role="pin-marker" '
-                           f'data-marker="{_esc(marker)}" data-points="{int(ok.sum())}">')
-                out += [_marker_svg(marker, colour, a, b, size, width_m) for a, b in zip(px[ok], py[ok])]
-                out.append("</g>")
+                out += _markers_svg(view, role, marker, colour, px, py, size, width_m)
                 records.append({"view": view, "role": role, "points": int(ok.sum()), "colour": colour,
                                 "marker": marker})
                 continue
             marker = getattr(mark, "marker", "circle")
             if role == "cursor":  # e.g. the peak marker of the measurements: its own shape and size
                 size = float(getattr(mark, "default_size", MARKER_SIZE))
-                out.append(f'<g class="sb-markers" data-view="{_esc(view)}" data-role="cursor" '
-                           f'data-marker="{_esc(marker)}" data-points="{int(ok.sum())}">')
-                out += [_marker_svg(marker, colour, a, b, size) for a, b in zip(px[ok], py[ok])]
-                out.append("</g>")
+                out += _markers_svg(view, role, marker, colour, px, py, size)
             else:
                 for a, b in zip(px[ok], py[ok]):
                     out.append(f'<circle cx="{a:.2f}" cy="{b:.2f}" r="2.5" fill="{colour}"/>')
@@ -289,7 +292,8 @@ def figure_svg(figure: Any, x0: float, y0: float, width: float, height: float, *
             colour = colours_m[i % len(colours_m)]
             if opacities and float(opacities[i % len(opacities)]) == 0:
                 continue  # drawn invisible on screen
-            d, n = _path(mx(xrows[i] if xrows.shape[0] > 1 else x), my_m(row))
+            px_row = mx(xrows[i] if xrows.shape[0] > 1 else x)
+            d, n = _path(px_row, my_m(row))
             if not n:
                 continue
             role_l = role or "line"
@@ -300,14 +304,8 @@ def figure_svg(figure: Any, x0: float, y0: float, width: float, height: float, *
                             "dash": getattr(mark, "line_style", "solid")})
             marker = getattr(mark, "marker", None)
             if marker:  # a point at every sample of the line (e.g. the Allan deviation's taus)
-                xm = xrows[i] if xrows.shape[0] > 1 else x
-                pxm, pym = mx(xm), my_m(row)
-                ok = np.isfinite(pxm) & np.isfinite(pym)
                 size = float(getattr(mark, "marker_size", MARKER_SIZE) or MARKER_SIZE)
-                out.append(f'<g class="sb-markers" data-view="{_esc(view)}" data-role="{role_l}-points" '
-                           f'data-marker="{_esc(marker)}" data-points="{int(ok.sum())}">')
-                out += [_marker_svg(marker, colour, a, b, size) for a, b in zip(pxm[ok], pym[ok])]
-                out.append("</g>")
+                out += _markers_svg(view, f"{role_l}-points", marker, colour, px_row, my_m(row), size)
     out.append("</g>")
     out.append(f'<rect x="{left:.2f}" y="{top:.2f}" width="{right - left:.2f}" height="{bottom - top:.2f}" '
                f'fill="none" stroke="{colours["axis"]}" stroke-width="0.8"/>')

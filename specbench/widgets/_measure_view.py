@@ -27,9 +27,8 @@ import numpy as np
 
 from .._errors import SpecbenchError
 from ._measure import MeasureState, Readings, harmonic_band
-from ._merit import duration
+from ._merit import duration, fmt
 from ._style import AXIS_LABEL, MARKER, MARKER_BAND_OPACITY, gapped
-from ._views import fmt
 
 __all__ = ["MeasureLayer", "MeasurePanel", "AdvisePanel"]
 

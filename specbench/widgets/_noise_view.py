@@ -31,9 +31,9 @@ from ..estimators._params import Interval, Optional, Subset, param
 from ..models import AllanDeviation, fit_noise
 from ..models._fit import CAUTION, TERMS, NoiseFitError, rank_terms
 from ._analysis import Analysis, register_analysis
-from ._merit import Merit
+from ._merit import Merit, fmt
 from ._style import ASYMPTOTE, MODEL, gapped
-from ._views import Overlay, Trace, _TraceView, fmt
+from ._views import Overlay, Trace, _TraceView
 
 __all__ = ["NoiseSettings", "NoiseResult", "NoiseAnalysis", "NoiseHost", "NoiseView"]
 

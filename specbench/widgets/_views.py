@@ -33,7 +33,7 @@ import bqplot as bq
 import ipywidgets as W
 import numpy as np
 
-from ._merit import fmt  # noqa: F401  (the views' number format, used by the panels too)
+from ._merit import fmt
 from ._reduce import reduce_sorted
 from ._style import (
     AXIS_LABEL,

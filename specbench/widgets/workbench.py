@@ -250,12 +250,6 @@ class Workbench(W.VBox):
         except SpecbenchError:
             return Context(self._signal.n_samples, self._signal.fs)
 
-    def _draw(self, data: bool) -> None:
-        self._ctl.draw(data)
-
-    def _show_status(self) -> None:
-        self._ctl.show_status()
-
     # ------------------------------------------------------------------ compute
     def flush(self) -> None:
         """Compute a deferred update now (for code that drives controls inside a kernel)."""
