@@ -326,13 +326,14 @@ def _wrap(text: str, chars: int) -> list[str]:
 
 
 def views_svg(views: Sequence[tuple[str, Any, dict[int, str] | None]], legend: Sequence[LegendEntry], caption: str,
-              *, panel_width: int = 560, panel_height: int = 360, theme: str = "light") -> tuple[str, list[dict]]:
-    """A complete SVG document: the views side by side with titles, the legend and the caption.
+              *, panel_width: int = 560, panel_height: int = 360, columns: int = 3,
+              theme: str = "light") -> tuple[str, list[dict]]:
+    """A complete SVG document: the views with titles (``columns`` to a row), the legend and the caption.
 
     Parameters
     ----------
     views : sequence of (title, bqplot Figure, roles)
-        What to draw, left to right; ``roles`` as in :func:`figure_svg` (may be None).
+        What to draw, left to right and then row by row; ``roles`` as in :func:`figure_svg` (may be None).
     legend : sequence of LegendEntry
         The current estimate and the pins, in order.
     caption : str
@@ -344,20 +345,22 @@ def views_svg(views: Sequence[tuple[str, Any, dict[int, str] | None]], legend: S
         raise ExportError(f"theme must be one of {', '.join(map(repr, THEMES))}; got {theme!r}.")
     colours = THEMES[theme]
     title_h = 26
-    width = panel_width * max(1, len(views))
+    columns = max(1, min(int(columns), len(views)))
+    rows = -(-len(views) // columns)
+    width = panel_width * columns
     body: list[str] = []
     records: list[dict] = []
     for i, (title, fig, roles) in enumerate(views):
-        x0 = i * panel_width
-        body.append(f'<text class="sb-title" x="{x0 + 16}" y="18" font-size="13" font-weight="bold" '
+        x0, y0 = (i % columns) * panel_width, (i // columns) * (title_h + panel_height)
+        body.append(f'<text class="sb-title" x="{x0 + 16}" y="{y0 + 18}" font-size="13" font-weight="bold" '
                     f'fill="{colours["text"]}">{_esc(title)}</text>')
-        svg, recs = figure_svg(fig, x0, title_h, panel_width, panel_height, view=title.split()[0].lower() if title
-                               else str(i), roles=roles, theme=theme)
+        svg, recs = figure_svg(fig, x0, y0 + title_h, panel_width, panel_height,
+                               view=title.split()[0].lower() if title else str(i), roles=roles, theme=theme)
         for r in recs:
             r["view_title"] = title
         body.append(svg)
         records += recs
-    y = title_h + panel_height + 18
+    y = rows * (title_h + panel_height) + 18
     x = 16
     for entry in legend:
         label = _esc(entry.label)

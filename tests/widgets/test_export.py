@@ -223,6 +223,13 @@ def test_every_figure_of_every_analysis_is_exported_with_the_points_the_view_dra
     titles = ["".join(t.itertext()) for t in root.iter(f"{SVG}text") if t.get("font-weight") == "bold"]
     cross = [v.title.value if hasattr(v.title, "value") else v.title for v in bench.views["cross"].views]
     assert len(cross) == 3 and all(any(c in t for t in titles) for c in ("Coherence", "Phase", "Gain")), titles
+    # six panels (PSD, autocorrelation, three cross figures, Allan deviation): three to a row
+    rows = {}
+    for t in root.iter(f"{SVG}text"):
+        if t.get("class") == "sb-title":
+            rows.setdefault(float(t.get("y")), []).append(float(t.get("x")))
+    assert sorted(len(xs) for xs in rows.values()) == [3, 3], rows
+    assert float(root.get("width")) == pytest.approx(3 * 560)
     points = [g for g in root.iter(f"{SVG}g") if g.get("data-role") == "line-points"]
     taus = bench.result("noise").allan.tau
     adev = bench.result("noise").allan.value
