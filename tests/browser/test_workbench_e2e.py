@@ -18,6 +18,7 @@ from __future__ import annotations
 import json
 import math
 import re
+import time
 from dataclasses import dataclass
 from pathlib import Path
 
@@ -257,7 +258,6 @@ def saved_cell_source(lab, path: Path, index: int | None = None, *, after: str |
 
     CodeMirror renders only the lines in view, so a long cell's text is read from the file.
     """
-    import time
 
     end = time.monotonic() + timeout
     saved_at = -math.inf
@@ -278,6 +278,23 @@ def saved_cell_source(lab, path: Path, index: int | None = None, *, after: str |
             return sources[at]
         assert time.monotonic() < end, f"{path.name} not saved with the cell asked for within {timeout} s"
         time.sleep(0.2)
+
+
+def settled_boxes(lab, *selectors: str, timeout: float = 10.0) -> list[dict]:
+    """The boxes of the first match of each selector, measured in one frame, once they have
+    stayed the same over two frames: the notebook keeps scrolling and laying out while the
+    kernel runs the cells below, and two boxes measured by separate calls can come from
+    different scroll positions (CI saw the two views of one row 250 px apart that way)."""
+    js = """sels => sels.map(s => { const r = document.querySelector(s).getBoundingClientRect();
+                               return {x: r.x, y: r.y, width: r.width, height: r.height}; })"""
+    end = time.monotonic() + timeout
+    last = None
+    while True:
+        boxes = lab.page.evaluate(js, list(selectors))
+        if boxes == last or time.monotonic() > end:
+            return boxes
+        last = boxes
+        lab.page.wait_for_timeout(250)
 
 
 def code_cell_below(lab, source: str) -> dict:
@@ -301,8 +318,7 @@ def test_quickstart_runs_and_both_views_draw_with_their_bands(lab):
     # machine); this test is about what is drawn, the benchmarks are about speed
     lab.wait_for(".sb-workbench .sb-psd path.area", timeout=90_000)
     # side by side: the two views share a row (1400 px window, file browser open)
-    psd_box = lab.page.locator(".sb-workbench .sb-psd").first.bounding_box()
-    acf_box = lab.page.locator(".sb-workbench .sb-acf").first.bounding_box()
+    psd_box, acf_box = settled_boxes(lab, ".sb-workbench .sb-psd", ".sb-workbench .sb-acf")
     assert abs(psd_box["y"] - acf_box["y"]) < 40 and acf_box["x"] > psd_box["x"] + psd_box["width"] - 1, (
         psd_box, acf_box)
     for view in ("psd", "acf"):
