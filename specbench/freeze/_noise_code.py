@@ -71,8 +71,9 @@ def noise_code(signal: Any, estimator: AllanDeviation, *, terms: tuple | None = 
 # ---------------------------------------------------------------- plain form of the fit
 #: the plain numpy/scipy Allan deviation, its chi-square intervals (Howe-Allan-Barnes edf for the
 #: noise type identified from the local slope) and the term fit (IRLS + NNLS on the Allan variance,
-#: Gauss-Markov profile, sandwich covariance with the between-tau correlation from records
-#: simulated from the fitted model, Satterthwaite chi-square intervals), then F, Q, H, R for the
+#: Gauss-Markov time by a profile of the gamma deviance, sandwich covariance with the Allan
+#: variances' covariance from records simulated from the fitted model, Satterthwaite chi-square
+#: intervals, Student's t on log T), then F, Q, H, R for the
 #: step by Van Loan's matrix exponential.  The same algorithm as sb.AllanDeviation / sb.fit_noise /
 #: model.kalman, written out; it agrees to floating-point rounding (the cumulative sums are taken
 #: in one pass here, per block there).
@@ -168,11 +169,16 @@ def PREFIXallan_fit(rate, fs):
         w = dof / (2.0 * np.maximum(model, 1e-300) ** 2)
         return theta, w, float(np.sum(w * (avar - a @ theta) ** 2))
 
+    def deviance(t_gm):  # gamma deviance: -2 log-likelihood of avar_i ~ model_i chi2_dof / dof, + const
+        mod = np.maximum(np.column_stack([basis(n, tau, t_gm) for n in names]) @ solve(t_gm)[0], 1e-300)
+        r = (avar - mod) / mod
+        return float(np.sum(dof * (r - np.log1p(r))))
+
     t_gm = None
-    if "gauss_markov" in names:  # correlation time: a profile search
+    if "gauss_markov" in names:  # correlation time: a profile search of the deviance
         grid = np.exp(np.linspace(np.log(tau[0] / 3), np.log(tau[-1] * 3), 49))
-        best = min((solve(t)[2], t) for t in grid)[1]
-        res = scipy.optimize.minimize_scalar(lambda lt: solve(np.exp(lt))[2], method="bounded",
+        best = min((deviance(t), t) for t in grid)[1]
+        res = scipy.optimize.minimize_scalar(lambda lt: deviance(np.exp(lt)), method="bounded",
                                              bounds=(np.log(best) - 0.2, np.log(best) + 0.2),
                                              options={"xatol": 1e-6})
         t_gm = float(np.exp(res.x))
@@ -211,7 +217,7 @@ def PREFIXallan_fit(rate, fs):
         return y
 
     replicates, seed = REPLICATES, SEED
-    if replicates:  # Allan variances at neighbouring tau are correlated: sandwich covariance
+    if replicates:  # sandwich covariance, the Allan variances' covariance from records of the model
         params = {n: (theta[i], t_gm) if n == "gauss_markov" else theta[i] for i, n in enumerate(names)}
         rng = np.random.default_rng(seed)
         chunk = max(1, 4_000_000 // rate.size)
@@ -219,11 +225,8 @@ def PREFIXallan_fit(rate, fs):
         for a in range(0, replicates, chunk):
             sims = simulate(params, rate.size, min(chunk, replicates - a), rng)
             rows += [avar_of(s, m) for s in sims]
-        corr = np.nan_to_num(np.atleast_2d(np.corrcoef(np.array(rows), rowvar=False)))
-        np.fill_diagonal(corr, 1.0)
-        sd_avar = np.sqrt(2.0 / dof) * (jac[:, : len(names)] @ theta)
         wj = w[:, None] * jac
-        cov = bread @ (wj.T @ (corr * np.outer(sd_avar, sd_avar)) @ wj) @ bread
+        cov = bread @ (wj.T @ np.atleast_2d(np.cov(np.array(rows), rowvar=False)) @ wj) @ bread
     sd = np.sqrt(np.abs(np.diag(cov)))
     terms = {}
     for i, n in enumerate(names):  # chi-square intervals, Satterthwaite's nu = 2 theta^2 / var(theta)
@@ -232,7 +235,8 @@ def PREFIXallan_fit(rate, fs):
         hi = theta[i] * nu / scipy.stats.chi2.ppf((1 - conf) / 2, nu)
         terms[n] = (np.sqrt(theta[i]), np.sqrt(lo), np.sqrt(hi))  # N, B, K, Q or sigma: value, lower, upper
     if t_gm is not None:
-        z = scipy.stats.norm.ppf((1 + conf) / 2)
+        # Student's t for replicates - 1 dof: var(log T) is a sample variance over the replicates
+        z = scipy.stats.t.ppf((1 + conf) / 2, replicates - 1) if replicates else scipy.stats.norm.ppf((1 + conf) / 2)
         terms["gauss_markov tau"] = (t_gm, t_gm * np.exp(-z * sd[-1]), t_gm * np.exp(z * sd[-1]))
 
     # -- the filter for step dt: Van Loan (1978) discretisation of the Gauss-Markov / random-walk states

@@ -81,9 +81,14 @@ class NoiseSettings(Estimator, abstract=True):
         Interval(int, 0, 1000),
         label="Replicates",
         group="band",
-        help="Records simulated from the fitted model for the correlation between averaging times in the "
-             "term intervals (0 ignores it: intervals then cover too little).",
+        help="Records simulated from the fitted model for the covariance of the Allan variances in the "
+             "term intervals (0 ignores it: intervals then cover too little; 1 is too few).",
     )
+
+    def _check(self) -> None:
+        if self.replicates == 1:
+            self._fail("replicates", "0 or an integer in the range [2, 1000]",
+                       "One record gives no covariance: use e.g. 48, or 0 to ignore it.")
 
     def allan(self) -> AllanDeviation:
         """The :class:`~specbench.AllanDeviation` these settings compute."""
