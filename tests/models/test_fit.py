@@ -145,11 +145,11 @@ def test_fitted_term_interval_coverage_monte_carlo(case):
     white + Gauss-Markov, whose tau interval was the short one), each term within 3 binomial
     standard errors of nominal, sqrt(0.683 * 0.317 / records): 0.044 for 1000, 0.031 for 2000.
 
-    Measured (32 replicates each), white + Gauss-Markov (T = 30 s, 2^14 samples): N 0.683,
-    sigma 0.677, tau 0.673 (2000 records). The earlier tau interval (T from the weighted sum of
-    squares, the Allan variances' variances from the estimator's dof, normal quantile) covered
-    0.627 on the first 1000 of these records' seed and 0.649 on another (its sigma 0.666):
-    this test fails on it. White + random walk (1000 records): N 0.673, K 0.682."""
+    Measured 2026-12-03 (32 replicates each), white + Gauss-Markov (T = 30 s, 2^14 samples,
+    2000 records): N 0.669, sigma 0.677, tau 0.688. The earlier tau interval (T from the
+    weighted sum of squares, the Allan variances' variances from the estimator's dof, normal
+    quantile) covered 0.627 on the first 1000 of these records' seed and 0.649 on another (its
+    sigma 0.666): this test fails on it. White + random walk (1000 records): N 0.667, K 0.664."""
     rng = np.random.default_rng({"white+random_walk": 31, "white+gauss_markov": 32}[case])
     if case == "white+random_walk":
         params, truth = {"white": 1.0, "random_walk": 1e-4}, {"white": 1.0, "random_walk": 1e-2}
