@@ -148,8 +148,8 @@ def test_fitted_term_interval_coverage_monte_carlo(case):
     Measured 2026-12-03 (32 replicates each), white + Gauss-Markov (T = 30 s, 2^14 samples,
     2000 records): N 0.669, sigma 0.677, tau 0.688. The earlier tau interval (T from the
     weighted sum of squares, the Allan variances' variances from the estimator's dof, normal
-    quantile) covered 0.627 on the first 1000 of these records' seed and 0.649 on another (its
-    sigma 0.666): this test fails on it. White + random walk (1000 records): N 0.667, K 0.664."""
+    quantile) covered tau 0.630 and sigma 0.651 on the same 2000 records (measured the same
+    day): this test fails on it. White + random walk (1000 records): N 0.667, K 0.664."""
     rng = np.random.default_rng({"white+random_walk": 31, "white+gauss_markov": 32}[case])
     if case == "white+random_walk":
         params, truth = {"white": 1.0, "random_walk": 1e-4}, {"white": 1.0, "random_walk": 1e-2}
