@@ -440,7 +440,8 @@ def _read(x: Any, a: int, b: int) -> np.ndarray:
 
 class _Cumulative:
     """Blocks of the cumulative sums ``C`` of one channel, rebuilt on demand from one
-    checkpoint per block; an LRU cache bounds the memory."""
+    checkpoint per block; an LRU cache bounds the memory.  A record of no more blocks than
+    the cache holds keeps them end to end in one array (``full``), and spans are views of it."""
 
     def __init__(self, x: np.ndarray, kind: str, capacity: int) -> None:
         self.x, self.kind, self.capacity = x, kind, max(4, capacity)
@@ -473,12 +474,30 @@ class _Cumulative:
                 blk = _read(x, b * BLOCK, (b + 1) * BLOCK)
                 cnt += int((~np.isfinite(blk)).sum())
             self.gaps = cnt
+        self.full = None
+        if self.nblocks <= self.capacity:  # the blocks end to end: the same values, one array
+            cv = np.empty(self.points)
+            g = np.empty(self.points, dtype=np.int64) if self.kind == "rate" and self.gaps else None
+            for b in range(self.nblocks):
+                part, gp = self._make(b)
+                cv[b * BLOCK : b * BLOCK + part.size] = part
+                if g is not None:
+                    g[b * BLOCK : b * BLOCK + part.size] = gp
+            self.full = (cv, g)
 
     def block(self, b: int) -> tuple[np.ndarray, np.ndarray | None]:
         hit = self.cache.get(b)
         if hit is not None:
             self.cache.move_to_end(b)
             return hit
+        out = self._make(b)
+        self.cache[b] = out
+        if len(self.cache) > self.capacity:
+            self.cache.popitem(last=False)
+        return out
+
+    def _make(self, b: int) -> tuple[np.ndarray, np.ndarray | None]:
+        """Block ``b`` of C (and the running gap counts), from its checkpoint."""
         a = b * BLOCK
         stop = min(self.points, a + BLOCK)
         if self.kind == "rate":
@@ -500,24 +519,33 @@ class _Cumulative:
         else:
             cv = _read(self.x, a, stop).copy()
             bad = None
-        out = (cv, bad)
-        self.cache[b] = out
-        if len(self.cache) > self.capacity:
-            self.cache.popitem(last=False)
-        return out
+        return cv, bad
 
-    def span(self, a: int, length: int) -> tuple[np.ndarray, np.ndarray | None]:
-        """``C[a : a + length]`` (and the gap counts) assembled from cached blocks."""
+    def span(self, a: int, length: int, out: np.ndarray | None = None) -> tuple[np.ndarray, np.ndarray | None]:
+        """``C[a : a + length]`` (and the gap counts) from cached blocks: a view of one block,
+        or the pieces copied into ``out`` (at least ``length`` long; a new array if None)."""
+        if self.full is not None:  # the whole record's C fits the cache's bound: views, no copies
+            cv, g = self.full
+            return cv[a : a + length], (None if g is None else g[a : a + length])
         b0, b1 = a // BLOCK, (a + length - 1) // BLOCK
         if b0 == b1:
             cv, g = self.block(b0)
             s = a - b0 * BLOCK
             return cv[s : s + length], (None if g is None else g[s : s + length])
-        parts = [self.block(b) for b in range(b0, b1 + 1)]
-        cv = np.concatenate([p[0] for p in parts])
-        g = None if parts[0][1] is None else np.concatenate([p[1] for p in parts])
-        s = a - b0 * BLOCK
-        return cv[s : s + length], (None if g is None else g[s : s + length])
+        cv = np.empty(length) if out is None else out[:length]
+        g = None
+        pos = 0
+        for b in range(b0, b1 + 1):
+            part, gp = self.block(b)
+            s = max(a - b * BLOCK, 0)
+            take = min(part.size - s, length - pos)
+            cv[pos : pos + take] = part[s : s + take]
+            if gp is not None:
+                if g is None:
+                    g = np.empty(length, dtype=np.int64)
+                g[pos : pos + take] = gp[s : s + take]
+            pos += take
+        return cv, g
 
 
 def _allan_sums(x: np.ndarray, ms: np.ndarray, overlapping: bool, kind: str, tracker: Any):
@@ -528,6 +556,8 @@ def _allan_sums(x: np.ndarray, ms: np.ndarray, overlapping: bool, kind: str, tra
     p = cum.points
     sums = np.zeros(ms.size)
     counts = np.zeros(ms.size, dtype=np.int64)
+    # work buffers reused over blocks and cluster sizes (spans that straddle blocks, the differences)
+    bufs = np.empty((4, BLOCK))
     for j in range(cum.nblocks):
         a = j * BLOCK
         for k, m in enumerate(ms):
@@ -543,14 +573,17 @@ def _allan_sums(x: np.ndarray, ms: np.ndarray, overlapping: bool, kind: str, tra
                 if start >= stop:
                     continue
             length = stop - start
-            c0, g0 = cum.span(start, length)
-            c1, g1 = cum.span(start + m, length)
-            c2, g2 = cum.span(start + 2 * m, length)
+            c0, g0 = cum.span(start, length, bufs[0])
+            c1, g1 = cum.span(start + m, length, bufs[1])
+            c2, g2 = cum.span(start + 2 * m, length, bufs[2])
             if step > 1:
                 c0, c1, c2 = c0[::step], c1[::step], c2[::step]
                 if g0 is not None:
                     g0, g2 = g0[::step], g2[::step]
-            d = c2 - 2.0 * c1 + c0
+            # d = c2 - 2 c1 + c0, in place: c2 + (-2 c1) is c2 - 2 c1 to the bit
+            d = np.multiply(c1, -2.0, out=bufs[3, : c1.size])
+            d += c2
+            d += c0
             if g0 is not None:
                 ok = (g2 - g0) == 0
                 d = d[ok]

@@ -532,20 +532,26 @@ def simulate(params: dict, n: int, fs: float, reps: int, rng: np.random.Generato
     from scipy import signal as _signal
 
     x = np.zeros((reps, n))
+    z = np.empty((reps, n))  # the draws, scaled in place (the same values as a * rng.standard_normal(...))
     for name, th in params.items():
         if name == "white":
-            x += math.sqrt(th * fs) * rng.standard_normal((reps, n))
+            rng.standard_normal(out=z)
+            z *= math.sqrt(th * fs)
+            x += z
         elif name == "random_walk":
-            x += np.cumsum(math.sqrt(th / fs) * rng.standard_normal((reps, n)), axis=-1)
+            rng.standard_normal(out=z)
+            z *= math.sqrt(th / fs)
+            x += np.cumsum(z, axis=-1, out=z)
         elif name == "quantization":
             e = math.sqrt(th) * rng.standard_normal((reps, n + 1))
             x += np.diff(e, axis=-1) * fs
         elif name == "gauss_markov":
             s2, t = th
             phi = math.exp(-1.0 / (fs * t))
-            drive = math.sqrt(s2 * (1 - phi**2)) * rng.standard_normal((reps, n))
-            drive[:, 0] = math.sqrt(s2) * rng.standard_normal(reps)
-            x += _signal.lfilter([1.0], [1.0, -phi], drive, axis=-1)
+            rng.standard_normal(out=z)
+            z *= math.sqrt(s2 * (1 - phi**2))
+            z[:, 0] = math.sqrt(s2) * rng.standard_normal(reps)
+            x += _signal.lfilter([1.0], [1.0, -phi], z, axis=-1)
         elif name == "bias_instability":
             f = np.fft.rfftfreq(n, 1.0 / fs)
             spec = np.zeros_like(f)

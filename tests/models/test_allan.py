@@ -81,6 +81,36 @@ def test_gaps_leave_out_touching_clusters():
     assert np.all(r.dof < full.dof) and r.info["gaps"] == 10
 
 
+@pytest.mark.parametrize("overlapping", [True, False])
+def test_whole_record_and_block_cache_paths_give_the_same_bits(monkeypatch, overlapping):
+    """A record of no more blocks than the cache holds keeps its cumulative sums end to end;
+    a longer one rebuilds blocks from checkpoints and copies the spans that straddle them.
+    The two paths must agree bit for bit, gaps included (a gap across a block join)."""
+    from specbench.models import _allan
+
+    rng = np.random.default_rng(8)
+    n = 9 * BLOCK + 321
+    x = rng.standard_normal((2, n)) + 0.01 * np.cumsum(rng.standard_normal((2, n)), axis=-1)
+    x[0, 3 * BLOCK - 5 : 3 * BLOCK + 7] = np.nan
+    x[1, 5 * BLOCK + 11] = np.inf
+    est = sb.AllanDeviation(taus=(0.1, 3.2, 100.0, 1000.0, 7000.0), overlapping=overlapping)
+    whole = est(x, fs=10.0)
+    init = _allan._Cumulative.__init__
+    seen = []
+
+    def blocks_only(self, *a, **k):
+        init(self, *a, **k)
+        seen.append(self.full is not None)
+        self.full = None  # force the block cache
+
+    monkeypatch.setattr(_allan._Cumulative, "__init__", blocks_only)
+    cached = est(x, fs=10.0)
+    assert seen and all(seen)  # the first run did take the whole-record path
+    assert np.array_equal(whole.value, cached.value, equal_nan=True)
+    assert np.array_equal(whole.clusters, cached.clusters)
+    assert np.array_equal(whole.info["gaps"], cached.info["gaps"])
+
+
 def test_streamed_engine_reads_memory_maps_with_bounded_memory(tmp_path):
     """Peak memory grows with log2 of the record (the cache of cumulative-sum blocks),
     not with the record."""
