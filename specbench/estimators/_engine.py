@@ -44,9 +44,12 @@ __all__ = [
 _POOL: ThreadPoolExecutor | None = None
 _THREADS = max(1, min(2, os.cpu_count() or 1))
 
-#: samples per block of work: small enough that a block stays in the L2 cache (measured
-#: here: 2**17 beats 2**18 by 10-20 % once the work buffers are reused)
-BLOCK_SAMPLES = 1 << 17
+#: samples per block of work.  Each block makes some twenty NumPy/SciPy calls, each of which
+#: releases and retakes the GIL; with two threads a retake often waits for the other thread
+#: and a wake-up costs tens of microseconds on this kind of VM, so small blocks serialise.
+#: Measured 2026-12-03 (Welch 1e7 / 4096 / 75 %, two threads, tasks of 2**20 samples):
+#: 2**16 160 ms, 2**17 110 ms, 2**18 95 ms (one thread: 164, 160, 155 ms)
+BLOCK_SAMPLES = 1 << 18
 
 
 def _pool() -> ThreadPoolExecutor:
@@ -228,7 +231,7 @@ def ordered_map(func: Callable, items: Sequence, report_blocks: bool = True) -> 
 
 
 def block_segments(nperseg: int) -> int:
-    """Segments per block: clamp(2**17 / nperseg, 4, 1024)."""
+    """Segments per block: clamp(BLOCK_SAMPLES / nperseg, 4, 1024)."""
     return int(min(1024, max(4, BLOCK_SAMPLES // max(1, nperseg))))
 
 
@@ -355,11 +358,12 @@ def _in_flight() -> int:
 
 def map_spans(kernel: Callable, x: Any, spans: Sequence[tuple[int, int]], per_span: Sequence[tuple] | None = None,
               args: tuple = (), y: Any = None, spans_y: Sequence[tuple[int, int]] | None = None,
-              report_blocks: bool = True) -> Iterator:
+              report_blocks: bool = True, threads: bool | None = None) -> Iterator:
     """``kernel(x[..., a:b], *per_span[i], *args)`` for each span ``i``, yielded in order.
 
     ``report_blocks=False`` for the short auxiliary passes (moments, trends, gap scans):
-    they honour a cancel request but do not count as a pass of the progress fraction.
+    they honour a cancel request but do not count as a pass of the progress fraction, and
+    run in the calling thread unless ``threads=True`` (spans long enough to pay a hand-off).
 
     With ``y``: ``kernel(x[..., a:b], y[..., c:d], *per_span[i], *args)``, ``(c, d) =
     spans_y[i]``.  See the section notes for NumPy and dask inputs.
@@ -376,8 +380,8 @@ def map_spans(kernel: Callable, x: Any, spans: Sequence[tuple[int, int]], per_sp
             def one(i):
                 (a, b), (c, d) = spans[i], spans_y[i]
                 return kernel(_take(x, a, b), _take(y, c, d), *per[i], *args)
-        if report_blocks:
-            yield from ordered_map(one, range(len(spans)))
+        if threads if threads is not None else report_blocks:
+            yield from ordered_map(one, range(len(spans)), report_blocks)
         else:  # short auxiliary passes: in the calling thread (hand-offs would cost more)
             tracker = _TRACKER.get()
             for i in range(len(spans)):
@@ -621,18 +625,64 @@ def segment_power(
     nfreq = nfft if twosided else nfft // 2 + 1
     per_block = min(block_segments(max(nperseg, nfft)), max(1, nseg))  # zero padding: buffers scale with nfft
     spans, calls = segment_spans(nseg, per_block, index, step, nperseg)
+    # in-memory data: blocks gathered into tasks (fewer thread hand-offs); dask: a task per
+    # block, as map_spans groups them for the cluster.  Each task returns its blocks' parts,
+    # summed here in block order, so the grouping does not change a bit.
+    part_bytes = c * nfreq * 8 * (per_block if keep_each else 1)
+    tasks, groups = group_blocks(spans, calls, 1 if is_lazy(x) else GROUP_SAMPLES,
+                                 max(1, GROUP_PART_BYTES // part_bytes))
     out = np.empty((c, nseg, nfreq), dtype=np.float64) if keep_each else None
     total = np.zeros((c, nfreq), dtype=np.float64)
-    parts = map_spans(_segment_block, x, spans, calls,
+    parts = map_spans(_segment_task, x, tasks, [(g,) for g in groups],
                       (w, step, nfft, detrend, twosided, keep_each, per_block))
     s0 = 0
-    for (count, _), part in zip(calls, parts):
-        if keep_each:
-            out[:, s0 : s0 + count, :] = part
-        else:
-            total += part
-        s0 += count
+    for group, task_parts in zip(groups, parts):
+        for (_, _, count, _), part in zip(group, task_parts):
+            if keep_each:
+                out[:, s0 : s0 + count, :] = part
+            else:
+                total += part
+            s0 += count
     return (out if keep_each else total), nseg
+
+
+#: samples per task handed to a worker thread (a group of blocks, each block still the
+#: unit of work): a hand-off between threads costs about as much as a block's work here
+#: (measured 2026-12-03: Welch 1e7 / 4096 / 75 %, blocks of 2**18 samples, two threads:
+#: 107 ms with a task per block, 95 ms with tasks of 2**20 samples)
+GROUP_SAMPLES = 1 << 20
+#: bytes of block results a task may hold before they are summed (tasks in flight x this
+#: bounds the memory of results waiting to be consumed)
+GROUP_PART_BYTES = 1 << 20
+
+
+def group_blocks(spans: list[tuple[int, int]], calls: list[tuple[int, Any]], size: int, most: int = 1 << 30
+                 ) -> tuple[list[tuple[int, int]], list[list[tuple[int, int, int, Any]]]]:
+    """Consecutive blocks gathered into tasks of at most ``size`` samples and ``most``
+    blocks (at least one block each).
+
+    Returns the tasks' sample spans and, per task, its blocks as ``(a, b, count, local)``
+    with ``a:b`` the block's span relative to the task's start.
+    """
+    tasks: list[tuple[int, int]] = []
+    groups: list[list[tuple[int, int, int, Any]]] = []
+    for (a, b), (count, local) in zip(spans, calls):
+        if groups and b - tasks[-1][0] <= size and len(groups[-1]) < most:
+            t0 = tasks[-1][0]
+            tasks[-1] = (t0, max(tasks[-1][1], b))
+        else:
+            t0 = a
+            tasks.append((a, b))
+            groups.append([])
+        groups[-1].append((a - t0, b - t0, count, local))
+    return tasks, groups
+
+
+def _segment_task(span: np.ndarray, blocks: list, w: np.ndarray, step: int, nfft: int, detrend: str,
+                  twosided: bool, keep_each: bool, per_block: int) -> list[np.ndarray]:
+    """The kernel of :func:`segment_power`: the parts of the blocks of one task, in order."""
+    return [_segment_block(span[:, a:b], count, local, w, step, nfft, detrend, twosided, keep_each, per_block)
+            for a, b, count, local in blocks]
 
 
 def _finite_block(span: np.ndarray, t0: int) -> np.ndarray:
@@ -762,9 +812,14 @@ def _moment_block(span: np.ndarray, a: int, shift: np.ndarray, dt: Any, cplx: bo
     seg = np.subtract(span, shift[:, None], out=buf, dtype=dt)
     s1 = seg.sum(axis=-1)
     s2 = np.einsum("ij,ij->i", seg.conj(), seg).real if cplx else np.einsum("ij,ij->i", seg, seg)
-    t = np.arange(a, a + seg.shape[-1], dtype=np.float64)
-    st = np.einsum("ij,j->i", seg, t) if linear and not cplx else None
+    st = None
+    if linear and not cplx:
+        st = np.einsum("ij,j->i", seg, np.arange(a, a + seg.shape[-1], dtype=np.float64))
     return seg.shape[-1], s1, s2, st
+
+
+#: samples per chunk of the moments pass (run on the worker threads when it has several)
+MOMENT_CHUNK = 1 << 18
 
 
 class Moments:
@@ -786,9 +841,10 @@ class Moments:
         self.st = np.zeros(c)
 
     def add(self, x: np.ndarray, t0: int, t1: int, linear: bool) -> None:
-        spans = [(a, min(t1, a + (1 << 16))) for a in range(t0, t1, 1 << 16)]
+        spans = [(a, min(t1, a + MOMENT_CHUNK)) for a in range(t0, t1, MOMENT_CHUNK)]
         for count, s1, s2, st in map_spans(_moment_block, x, spans, [(a,) for a, _ in spans],
-                                           (self.shift, self.dt, self.cplx, linear), report_blocks=False):
+                                           (self.shift, self.dt, self.cplx, linear), report_blocks=False,
+                                           threads=len(spans) > 2):
             self.n += count
             self.s1 += s1
             self.s2 += s2

@@ -2,8 +2,8 @@
 
 Run: ``python tests/benchmarks/bench_welch.py [--quick]``.  Prints, per case, the median
 wall time of each contender, the peak extra memory (tracemalloc: numpy reports its
-buffers), and the ratios.  Targets (DESIGN.md / issue 2), at 1e7 samples, segment 4096,
-75 % overlap: at least 5x faster than scipy, at most a quarter of its peak extra memory,
+buffers), and the ratios.  Targets (DESIGN.md / issues 2 and 12), at 1e7 samples, segment 4096,
+75 % overlap: at least 6x faster than scipy, at most a quarter of its peak extra memory,
 within about 1.3x of the FFT-only floor.  Not part of the test suite: timings are only
 meaningful side by side in one run on one machine.
 """

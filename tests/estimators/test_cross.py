@@ -435,7 +435,9 @@ def test_result_table_and_repr():
 
 
 def test_streams_without_copying_the_record():
-    # 2 channels x 2e6 float64 samples = 32 MB; the engine's extra memory is a few blocks.
+    # 2 channels x 2e6 float64 samples = 32 MB; the engine's extra memory is a few blocks
+    # (blocks of 2**18 samples since 2026-12-03: 14.4 MB measured, 11 MB with 2**17), so a
+    # copy of the record (32 MB) fails the bound.
     import tracemalloc
 
     rng = np.random.default_rng(15)
@@ -446,13 +448,13 @@ def test_streams_without_copying_the_record():
     est(x[0], x[1], fs=FS)
     _, peak = tracemalloc.get_traced_memory()
     tracemalloc.stop()
-    assert peak < 12 * 2**20, peak / 2**20
+    assert peak < 18 * 2**20, peak / 2**20
     mm32 = x.astype(np.float32)
     tracemalloc.start()
     est(mm32, fs=FS)
     _, peak32 = tracemalloc.get_traced_memory()
     tracemalloc.stop()
-    assert peak32 < 12 * 2**20, peak32 / 2**20
+    assert peak32 < 18 * 2**20, peak32 / 2**20
 
 
 @pytest.mark.parametrize("estimator", [sb.CrossSpectrum(segment_length=256), sb.CrossCorrelation(max_lag=10)],

@@ -3,16 +3,26 @@
 import numpy as np
 
 import specbench as sb
-from specbench.estimators._engine import block_segments, reporting_progress
+from specbench.estimators._engine import (
+    GROUP_SAMPLES,
+    block_segments,
+    group_blocks,
+    reporting_progress,
+    segment_spans,
+)
 
 
 def test_welch_reports_every_block_in_order():
     calls = []
-    x = np.random.default_rng(0).standard_normal(1_000_000)
+    x = np.random.default_rng(0).standard_normal(4_000_000)
     with reporting_progress(lambda done, total: calls.append((done, total))):
         spec = sb.Welch(segment_length=1024)(x, fs=1.0)
-    nblocks = -(-spec.segments // block_segments(1024))
-    assert calls == [(k, nblocks) for k in range(1, nblocks + 1)]
+    # one report per task: the blocks of segments, gathered into tasks of GROUP_SAMPLES
+    per = block_segments(1024)
+    spans, blocks = segment_spans(spec.segments, per, None, spec.info["step"], 1024)
+    ntasks = len(group_blocks(spans, blocks, GROUP_SAMPLES)[0])
+    assert ntasks > 1 and len(spans) > ntasks  # several tasks, of several blocks each
+    assert calls == [(k, ntasks) for k in range(1, ntasks + 1)]
 
 
 def test_multitaper_reports_one_pass_per_taper_and_the_weights_and_nothing_outside():
