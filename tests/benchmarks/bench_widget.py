@@ -59,7 +59,7 @@ CYCLES = {
     "acf_band": ["white", "bartlett"],
     "acf_confidence": [0.9, 0.95],
     "channel": ["y", "x"],
-    "span": [(1.0, 400.0), (0.0, 300.0), None],
+    "span": [(0.001, 0.4), (0.0, 0.3), None],  # fractions of the record (a span outside it is refused)
     "fs": [20_000.0, None],
 }
 #: method switches: to another method and back to Welch (segment 4096) in each round
@@ -84,6 +84,9 @@ def bench(n: int, repeats: int) -> dict:
     for name, value in changes(repeats):
         if name not in bench.controls:  # a field of another method
             continue
+        if name == "span" and value is not None:
+            duration = n / sig.fs
+            value = (value[0] * duration, value[1] * duration)
         bench._session._results.clear()  # measure computes, not cache hits
         t0 = time.perf_counter()
         bench.controls[name].value = value
