@@ -31,11 +31,21 @@ from collections.abc import Callable
 from typing import Any
 
 from .._errors import InputError, SettingsError, SpecbenchError
-from ._scheduler import BACKGROUND_SECONDS
-from ._session import Context, DataSelection, Problem, Session, check_selection, internal_message
+from ._scheduler import BACKGROUND_SECONDS, running_loop
+from ._session import Context, DataSelection, Problem, Session, check_selection, describe, internal_message
 from ._status import guarded, status_of
 
 _log = logging.getLogger("specbench.widgets")
+
+
+def set_stale(host: Any, what: str | None) -> None:
+    """Mark ``host``'s view as showing an earlier data selection (``what`` describes it), or not."""
+    if hasattr(host, "set_stale"):
+        host.set_stale(what)
+        return
+    widget = getattr(host, "widget", None)
+    if widget is not None and hasattr(widget, "add_class"):
+        (widget.add_class if what else widget.remove_class)("sb-stale")
 
 
 def _guarded(fn):
@@ -256,24 +266,44 @@ class Controller:
         if self.scheduler.pending() and self.slow:
             self.statusline.computing()
 
-    def run(self, sync: bool = False) -> None:
-        """Compute what the pending settings need and put it on screen; never raises."""
+    def run(self, sync: bool = False, stage: bool = False) -> None:
+        """Compute what the pending settings need and put it on screen; never raises.
+
+        ``stage``: with ``sync``, still leave slow analyses to the background when an event
+        loop runs (the workbench's first estimate in a kernel: the quick views are on screen
+        when the cell returns, the slow ones follow with a progress bar).
+        """
         try:
-            self._update(sync)
+            self._update(sync, stage)
         except Exception as e:  # never let an error escape into the event loop
             _log.exception("Workbench: unexpected error")
             self.session.errors["internal"] = Problem(internal_message(e))
             self.show_status()
 
-    def _update(self, sync: bool) -> None:
+    def _update(self, sync: bool, stage: bool = False) -> None:
         t0 = time.perf_counter()
         changed, self.changed = self.changed, set()
         job = self.session.plan(changed)
         if job is None:
             self.show_status()
             return
-        if not sync and self.scheduler.background_allowed():
+        background = self.scheduler.background_allowed() if not sync else stage and running_loop() is not None
+        if background:
             expected = job.expected_seconds()
+            quick = job.split(BACKGROUND_SECONDS) if expected > BACKGROUND_SECONDS else None
+            if quick is not None:
+                # the quick analyses (the main one among them) take the change at once, a new
+                # data selection included; the slow ones follow in the background, their views
+                # marked as showing the previous selection until then
+                quick.execute()
+                self._finish(quick, t0)
+                if quick.sel != self.session.sel:  # the new selection was refused: nothing follows
+                    return
+                job = self.session.plan(changed)
+                if job is None:
+                    return
+                t0 = time.perf_counter()
+                expected = job.expected_seconds()
             if expected > BACKGROUND_SECONDS:
                 self._expected = expected
                 self._started = t0
@@ -296,6 +326,8 @@ class Controller:
                 self.session.notes = ["The computation was cancelled; "
                                       + ("the last good estimate stays on screen."
                                          if self.session.any_result else "nothing is on screen yet.")]
+                self.session.notes += self.stale_notes(again=True)
+                self.draw(data=False)
                 self.show_status()
                 return
             self._finish(job, self._started)
@@ -321,12 +353,24 @@ class Controller:
                 self.gap_note = None
         if s.main.result is not None:
             s.errors.pop("nopin", None)
+        s.notes += self.stale_notes()
         if updated:
             self.binding.suggest()
             self.draw(data=s.sel != sel_before or sel_before is None)
             self.last_update = time.perf_counter() - t0
             self.slow = self.last_update > 0.25
         self.show_status()
+
+    def stale_notes(self, again: bool = False) -> list[str]:
+        """A note for each view that shows a result of an earlier data selection."""
+        s = self.session
+        out = []
+        for slot in s.slots.values():
+            if s.stale(slot):
+                out.append(f"{slot.analysis.title or slot.name} on screen is of {describe(slot.sel)}, "
+                           "not of the selection above" + ("; it is recomputed with the next change."
+                                                           if again else "."))
+        return out
 
     def _show_busy(self, job, fraction: float) -> None:
         names = ", ".join(slot.analysis.title or slot.name for slot, _ in job.todo)
@@ -342,12 +386,15 @@ class Controller:
             holds += host.holds()
         holds += [self.merit.widget, self.strip.trace, self.strip.figure]
         shown = {name: slot.shown for name, slot in s.slots.items() if slot.shown is not None}
+        # what other analyses may combine with (overlays, figures of merit): the views of the
+        # selection on screen only, not a stale one still showing an earlier selection
+        current = {name: v for name, v in shown.items() if not s.stale(s.slots[name])}
         with contextlib.ExitStack() as stack:
             for w in holds:
                 stack.enter_context(w.hold_sync())
             overlays: dict[str, list] = {}
             for slot in s.slots.values():
-                if slot.shown is not None:
+                if slot.name in current:
                     for target, items in slot.analysis.overlays(slot.shown).items():
                         overlays.setdefault(target, []).extend(items)
             pins = list(self._pins())
@@ -356,10 +403,12 @@ class Controller:
                 if hasattr(host, "set_overlays"):
                     host.set_overlays(overlays.get(name, []))
                 host.show(shown.get(name), pinned)
+                slot = s.slots[name]
+                set_stale(host, describe(slot.sel) if s.stale(slot) else None)
             merits = []
             for slot in s.slots.values():
-                if slot.shown is not None:
-                    merits += slot.analysis.merits(slot.shown, shown)
+                if slot.name in current:
+                    merits += slot.analysis.merits(slot.shown, current)
             if merits:
                 self.merit.show(merits)
             if data and s.sel is not None:

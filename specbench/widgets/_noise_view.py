@@ -302,12 +302,24 @@ class NoiseHost:
         self.table.add_class("sb-noise-table")
         plot = W.VBox([self.view.header, self.view.figure, self.view.footer],
                       layout=W.Layout(flex="3 1 480px", min_width="250px"))
-        title = W.HTML("<span class='sb-view-title'>Noise model</span>")
+        self.title = title = W.HTML(self._TITLE)
         row = gapped(W.HBox([plot, self.table], layout=W.Layout(flex_flow="row wrap", width="100%",
                                                                  align_items="flex-start")), "wide")
         # a row of its own below the other views: the plot and the table need the width
         self.widget = W.VBox([title, row], layout=W.Layout(flex="1 1 100%", width="100%", min_width="250px"))
         self.widget.add_class("sb-view-noise")
+
+    _TITLE = "<span class='sb-view-title'>Noise model</span>"
+
+    def set_stale(self, what: str | None) -> None:
+        """Say that the view shows an earlier data selection (``what``), or clear it."""
+        if what:
+            self.widget.add_class("sb-stale")
+            self.title.value = (self._TITLE + " <span class='sb-stale-note'>of " + html.escape(what)
+                                + ", an earlier data selection</span>")
+        else:
+            self.widget.remove_class("sb-stale")
+            self.title.value = self._TITLE
 
     def show(self, shown: Any, pinned: list) -> None:
         if shown is None:

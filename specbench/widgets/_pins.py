@@ -261,7 +261,7 @@ class Pins:
             raise SpecbenchError(msg)
         s.errors.pop("pins", None)
         color, dash = self._free_style()
-        on = [slot for slot in s.slots.values() if slot.result is not None]
+        on = [slot for slot in s.slots.values() if s.current(slot)]  # not a view of an earlier selection
         p = Pin(
             label=label or "", estimators={x.name: x.est for x in on}, results={x.name: x.result for x in on},
             shown={x.name: x.shown for x in on}, channel=s.sel.channel, span=s.sel.span, fs=s.main.result.fs,

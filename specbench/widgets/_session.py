@@ -46,8 +46,8 @@ class _Cancelled(SpecbenchError):
 #: what a cancelled computation raises
 CANCELLED = getattr(_errors, "Cancelled", _Cancelled)
 
-__all__ = ["check_selection", "gap_defaults", "DataSelection", "Problem", "Slot", "Session", "Job", "Attempt",
-           "DATA_KEYS"]
+__all__ = ["check_selection", "describe", "gap_defaults", "DataSelection", "Problem", "Slot", "Session", "Job",
+           "Attempt", "DATA_KEYS"]
 
 _log = logging.getLogger("specbench.widgets")
 _log.addHandler(logging.NullHandler())
@@ -81,6 +81,16 @@ class Problem:
 
     message: str
     keys: list[str] = field(default_factory=list)
+
+
+def describe(sel: DataSelection | None) -> str:
+    """A data selection in words: ``channel 'x', 2 to 30 s at 20000 Hz``."""
+    if sel is None:
+        return "no data selection"
+    span = "the whole record" if sel.span is None else f"{sel.span[0]:g} to {sel.span[1]:g} s"
+    rate = "" if sel.fs is None else f" at {sel.fs:g} Hz"
+    channel = "every channel" if sel.channel == "*" else f"channel {sel.channel!r}"
+    return f"{channel}, {span}{rate}"
 
 
 def _number(v: Any) -> bool:
@@ -161,6 +171,9 @@ class Slot:
         self.carried: dict[str, Any] = {}
         #: (estimator, selection) of the last failed attempt: not retried until one changes
         self.failed: tuple | None = None
+        #: the data selection ``result`` was made on (the session's, unless the analysis was
+        #: deferred and still shows the previous selection: see :meth:`Session.stale`)
+        self.sel: DataSelection | None = None
 
     @property
     def wanted(self) -> Any:
@@ -206,13 +219,33 @@ class Job:
         """The selected signal ``slot``'s analysis computes on (one channel, or all)."""
         return self.signals.get(slot.name, self.signal)
 
+    def costs(self) -> dict[str, float]:
+        """The cost model's expected seconds of each analysis (0 when its result is cached)."""
+        out = {}
+        for slot, est in self.todo:
+            cached = self.session.cached(slot, est, self.sel) is not None
+            out[slot.name] = 0.0 if cached else slot.analysis.expected_seconds(est, self.signal_for(slot))
+        return out
+
     def expected_seconds(self) -> float:
         """The cost model's expected time of the analyses that are not cached."""
-        total = 0.0
-        for slot, est in self.todo:
-            if self.session.cached(slot, est, self.sel) is None:
-                total += slot.analysis.expected_seconds(est, self.signal_for(slot))
-        return total
+        return sum(self.costs().values())
+
+    def split(self, limit: float) -> Job | None:
+        """The quick part of this job, to compute and commit first, or None.
+
+        The quick part holds the main analysis and every analysis expected to take no longer
+        than ``limit`` seconds, when together they are expected within ``limit`` and at least
+        one slower analysis is left over.  Committed alone it takes the new data selection; the
+        slower analyses left out keep their last result, marked stale (:meth:`Session.stale`),
+        until a job of their own replaces it.
+        """
+        costs = self.costs()
+        main = self.session.main.name
+        quick = [(slot, est) for slot, est in self.todo if slot.name == main or costs[slot.name] <= limit]
+        if len(quick) == len(self.todo) or sum(costs[s.name] for s, _ in quick) > limit:
+            return None
+        return Job(self.session, self.sel, self.signal, quick, self.changed)
 
     def execute(self, progress: Any = None, cancel: Any = None) -> None:
         """Compute every analysis of the job (safe in a worker thread: reads the session only).
@@ -369,6 +402,16 @@ class Session:
             return sel
         return DataSelection("*", sel.fs, sel.span)
 
+    def stale(self, slot: Slot) -> bool:
+        """True when ``slot`` shows a result of an earlier data selection (a deferred analysis
+        still computing, cancelled, or failing on the new selection)."""
+        return (slot.result is not None and self.sel is not None
+                and self.depends(slot, slot.sel) != self.depends(slot, self.sel))
+
+    def current(self, slot: Slot) -> bool:
+        """True when ``slot`` has a result of the data selection on screen."""
+        return slot.result is not None and not self.stale(slot)
+
     def cached(self, slot: Slot, est: Any, sel: DataSelection) -> Any:
         return self._results.get((slot.name, est, self.depends(slot, sel)))
 
@@ -420,6 +463,7 @@ class Session:
     def pending(self) -> bool:
         sel = self.next_sel or self.sel
         return sel != self.sel or any(s.wanted != s.est or (s.result is None and s.failed != (s.wanted, sel))
+                                      or (self.stale(s) and s.failed != (s.wanted, sel))
                                       for s in self.slots.values())
 
     # ------------------------------------------------------------------ the update
@@ -431,10 +475,12 @@ class Session:
         self.errors.pop("internal", None)
         sel_changed = sel != self.sel
         # an analysis recomputes when its estimator or the part of the selection it depends
-        # on changes (a channel change leaves an analysis of every channel as it is)
+        # on changes (a channel change leaves an analysis of every channel as it is), and a
+        # stale one (left showing an earlier selection) until it succeeds or fails on this one
         todo = [(s, s.wanted) for s in self.slots.values()
-                if (sel_changed and self.depends(s, sel) != self.depends(s, self.sel)) or s.wanted != s.est
-                or (s.result is None and s.failed != (s.wanted, sel))]
+                if (s.result is not None and self.depends(s, sel) != self.depends(s, s.sel)
+                    and s.failed != (s.wanted, sel))
+                or s.wanted != s.est or (s.result is None and s.failed != (s.wanted, sel))]
         if not todo:
             # the controls ask for what is on screen: earlier failures no longer apply
             if sel_changed and self.sel is not None:  # a selection no analysis depends on
@@ -486,6 +532,7 @@ class Session:
                 continue
             slot.failed = None
             slot.est, slot.result, slot.shown = a.est, a.result, slot.analysis.shown(a.result)
+            slot.sel = job.sel
             slot.next = None
             slot.carried = {}
             self.errors.pop(name, None)

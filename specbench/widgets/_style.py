@@ -180,6 +180,8 @@ _CSS = """
 .sb-workbench .sb-pin-row .sb-pin-settings { color: var(--jp-ui-font-color2);
   font-family: var(--jp-code-font-family); font-size: var(--jp-code-font-size, 12px); }
 .sb-workbench .sb-view-title { font-weight: 600; }
+.sb-workbench .sb-stale > * + * { opacity: 0.45; }
+.sb-workbench .sb-stale-note { color: var(--jp-warn-color1); font-style: italic; }
 .sb-workbench table.sb-term-table { border-collapse: collapse; width: 100%; margin: 4px 0; }
 .sb-workbench table.sb-term-table th { text-align: left; font-weight: 600; color: var(--jp-ui-font-color2);
   font-size: var(--jp-ui-font-size0, 11px); border-bottom: 1px solid var(--jp-border-color1); padding: 2px 6px; }

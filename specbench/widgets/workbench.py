@@ -20,6 +20,12 @@ Behaviour
 - A change made by code (a cell, a script, a test) computes before it returns; so does
   setting :attr:`Workbench.estimator`.  A front-end change is coalesced; a long one runs in
   a worker thread with a progress bar and a Cancel button.
+- When a change needs both quick analyses and slow ones (the noise model of a long record
+  re-fits on every new data selection), the quick ones (the main analysis always among them)
+  commit first, the new data selection with them, and the slow ones follow in the worker
+  thread.  Until they do, their views say which earlier selection they show, are dimmed,
+  and stay out of overlays, figures of merit, pins and the frozen cell.  The first estimate
+  of a workbench built in a kernel is staged the same way; :meth:`Workbench.flush` waits.
 - A failing setting leaves the last good estimate on screen; nothing raises into the front
   end.  :attr:`Workbench.estimator` is always the estimator of the estimate on screen.
 - Data-preparation fields (``group="data"``: ``detrend``, ``gaps``) have one control in the
@@ -217,7 +223,8 @@ class Workbench(W.VBox):
             children += [section("Freeze"), self._panel]
         self.children = children
         self.add_class("sb-workbench")
-        self._ctl.run(True)
+        # in a kernel, slow analyses (a noise model of a long record) follow in the background
+        self._ctl.run(True, stage=True)
 
     # ------------------------------------------------------------------ construction helpers
     def _channel_name(self, channel: Any) -> str:
@@ -429,6 +436,8 @@ class Workbench(W.VBox):
         extra, options = {}, {}
         for n, x in s.slots.items():
             if n not in ("psd", "acf"):
+                if s.stale(x):  # still showing an earlier data selection: frozen once it is current
+                    continue
                 est, opts = x.analysis.settings_entry(x.est)
                 if est is None:  # the analysis does not apply to this data (e.g. cross on one channel)
                     continue
@@ -437,7 +446,7 @@ class Workbench(W.VBox):
                     options[n] = opts
         lines = {}
         for n, x in s.slots.items():  # psd / acf: lines after the freeze layer's own (e.g. measurements)
-            if x.result is not None or n in extra:
+            if s.current(x) or n in extra:
                 got = x.analysis.freeze_lines(x.est, "{sig}")
                 if got:
                     lines[n] = got

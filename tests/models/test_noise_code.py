@@ -46,8 +46,13 @@ def _check_plain_fit(ns, ref, model, k):
         got = r["terms"][name]
         if name == "gauss_markov":
             np.testing.assert_allclose(got, (t.sigma.value, t.sigma.lower, t.sigma.upper), rtol=1e-5)
+            # the correlation time to 1e-4: the deviance is flat in log T (on the imu-static
+            # record 5e-10 between T = 33.93019 and 33.93048 s) while its slope weighs the Allan
+            # variances by their dof (up to ~1e5), so the plain form's rounding (1e-10 relative in
+            # the variances) moves the minimum by ~1e-5 relative (measured 1.2e-5 with numpy
+            # 2.4.6 / scipy 1.17.1), four orders below the interval's width (22.8 .. 50.5 s)
             np.testing.assert_allclose(r["terms"]["gauss_markov tau"], (t.tau.value, t.tau.lower, t.tau.upper),
-                                       rtol=1e-5)
+                                       rtol=1e-4)
         else:
             np.testing.assert_allclose(got, (t.value, t.lower, t.upper), rtol=1e-5, err_msg=name)
     for key in ("F", "Q", "H", "R"):

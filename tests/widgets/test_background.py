@@ -85,3 +85,116 @@ def test_code_changes_still_complete_before_they_return(long_sig):
         assert bench.spectrum.estimator == sb.Multitaper(segment_length=4096) and not bench.busy
 
     asyncio.run(main())
+
+
+# ---------------------------------------------------------------- staged updates
+# A change that needs quick analyses and a slow one (the noise model re-fits on every new data
+# selection) commits the quick ones first, the new selection with them; the slow one follows
+# in the worker thread, its view marked as showing the earlier selection until then.
+
+@pytest.fixture(scope="module")
+def two_channels():
+    rng = np.random.default_rng(5)
+    x = rng.standard_normal((2, 400_000))
+    x[1] = 0.5 * x[0] + x[1]
+    return sb.Signal(x, fs=1000.0, channels=["a", "b"], unit="V")
+
+
+def _staged(bench):
+    """The quick part and the slow part the cost model sees for a channel change."""
+    s = bench._session
+    costs = {slot.name: slot.analysis.expected_seconds(slot.est, s.select(s.sel)) for slot in s.slots.values()}
+    return costs
+
+
+def test_a_new_selection_shows_the_quick_views_first_and_the_noise_model_follows(two_channels):
+    bench = sb.Workbench(two_channels)
+    costs = _staged(bench)
+    if costs["noise"] <= 0.5 or costs["psd"] + costs["acf"] + costs["cross"] > 0.5:
+        pytest.skip(f"this machine's cost model does not split the update: {costs}")
+    host = bench._hosts["noise"]
+    before = bench.result("noise")
+    seen = {}
+
+    async def main():
+        bench.controls["channel"].value = "b"
+        await _wait(lambda: bench.channel == "b")
+        # the PSD and autocorrelation are of channel b; the noise model still of a, and says so
+        s = bench._session
+        seen["busy"] = bench.busy
+        seen["stale"] = [n for n, slot in s.slots.items() if s.stale(slot)]
+        seen["title"] = host.title.value
+        seen["classes"] = list(host.widget._dom_classes)
+        seen["pin"] = sorted(bench.pin().shown)
+        bench.clear_pins()
+        seen["code"] = bench.code()
+        seen["merits"] = set(bench.merits)
+        seen["noise"] = bench.result("noise")
+        await _wait(lambda: not bench.busy)
+        await asyncio.sleep(0.05)
+
+    asyncio.run(main())
+    assert seen["busy"] and seen["stale"] == ["noise"] and seen["noise"] is before
+    assert "of channel &#x27;a&#x27;, the whole record, an earlier data selection" in seen["title"]
+    assert "sb-stale" in seen["classes"]
+    assert seen["pin"] == ["acf", "cross", "psd"]  # a pin holds the current views only
+    assert "AllanDeviation" not in seen["code"] and "fit_noise" not in seen["code"]
+    assert not any(k.startswith("noise") for k in seen["merits"])
+    # done: the noise model of channel b, the same numbers as computed directly
+    after = bench.result("noise")
+    assert after is not before and not bench._session.stale(bench._session.slots["noise"])
+    direct = bench.estimator_of("noise").allan()(bench.selected).channel(0)
+    np.testing.assert_array_equal(after.allan.value, direct.value)
+    assert direct.n == 400_000 and after.allan.n == direct.n
+    assert host.title.value == host._TITLE and "sb-stale" not in host.widget._dom_classes
+    assert "AllanDeviation" in bench.code()
+    assert "Not applied" not in bench.status and "earlier" not in bench.status
+
+
+def test_a_cancelled_noise_model_stays_marked_and_is_recomputed_with_the_next_change(two_channels):
+    bench = sb.Workbench(two_channels)
+    costs = _staged(bench)
+    if costs["noise"] <= 0.5 or costs["psd"] + costs["acf"] + costs["cross"] > 0.5:
+        pytest.skip(f"this machine's cost model does not split the update: {costs}")
+    before = bench.result("noise")
+
+    async def main():
+        bench.controls["span"].value = (10.0, 390.0)
+        await _wait(lambda: bench.span == (10.0, 390.0) and bench.busy)
+        assert bench.cancel()
+        await _wait(lambda: not bench.busy)
+        await asyncio.sleep(0.05)
+        assert bench.result("noise") is before
+        assert "cancelled" in bench.status
+        assert "Noise model on screen is of channel 'a', the whole record, not of the selection above; " \
+               "it is recomputed with the next change." in bench.status
+        bench.controls["window"].value = "hamming"  # any change: the stale view recomputes too
+        await _wait(lambda: bench.busy)
+        await _wait(lambda: not bench.busy)
+        await asyncio.sleep(0.05)
+
+    asyncio.run(main())
+    s = bench._session
+    assert not s.stale(s.slots["noise"]) and bench.result("noise") is not before
+    assert bench.result("noise").allan.n == 380_000  # of the span 10 to 390 s at 1 kHz
+    assert "earlier" not in bench.status and "Not applied" not in bench.status
+
+
+def test_a_workbench_built_in_a_kernel_shows_the_quick_views_before_the_noise_model(two_channels):
+    costs = _staged(sb.Workbench(two_channels))
+    if costs["noise"] <= 0.5 or costs["psd"] + costs["acf"] + costs["cross"] > 0.5:
+        pytest.skip(f"this machine's cost model does not split the update: {costs}")
+    seen = {}
+
+    async def main():
+        bench = sb.Workbench(two_channels)  # a running loop, as in a kernel cell
+        seen["psd"] = bench.spectrum is not None
+        seen["noise"] = bench.result("noise")
+        seen["busy"] = bench.busy
+        bench.flush()  # waits for the worker and commits its result
+        seen["after"] = bench.result("noise")
+        seen["bench"] = bench
+
+    asyncio.run(main())
+    assert seen["psd"] and seen["noise"] is None and seen["busy"]
+    assert seen["after"] is not None and seen["after"].model is not None
