@@ -505,6 +505,10 @@ class OptionalControl(FieldControl):
     def _inner_changed(self, change):
         if self._quiet or self.inner._quiet:
             return
+        if self.auto.value and all(w.disabled for w in self.inner._editors()):
+            # a disabled editor is not edited by a person: this is the front end settling the
+            # value it was given (a slider snapping to its step) while "auto" is ticked
+            return
         with self._silence():
             self.auto.value = False
             self._enable(True)

@@ -167,7 +167,9 @@ class NoiseView(_TraceView):
                                enable_move=False)
 
     def _make_scales(self):
-        return bq.LogScale(), bq.LogScale()
+        # a finite range before the first result (a workbench built in a kernel draws the views
+        # before the noise fit ends; a log scale with no data and no range draws NaN ticks)
+        return bq.LogScale(min=0.01, max=100.0), bq.LogScale(min=1e-4, max=1.0)
 
     def _xlog(self) -> bool:
         return True
@@ -297,7 +299,8 @@ class NoiseHost:
         self.analysis = analysis
         self.view = NoiseView()
         self.figure = self.view.figure
-        self.table = W.HTML("<span class='sb-muted'>No noise model yet.</span>",
+        self.table = W.HTML("<span class='sb-muted'>No noise model on screen yet (it is fitted after the other "
+                            "views; the status line says how far it is).</span>",
                             layout=W.Layout(flex="1 1 500px", min_width="min(100%, 500px)"))
         self.table.add_class("sb-noise-table")
         plot = W.VBox([self.view.header, self.view.figure, self.view.footer],

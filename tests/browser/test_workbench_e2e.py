@@ -506,6 +506,7 @@ from pathlib import Path
 
 frozen = bench.freeze()
 _ = Path("frozen.py").write_text(frozen)
+bench.flush()  # the noise model, fitted in the background, on screen first
 _ = Path("code.py").write_text(bench.code())"""
 
 
@@ -535,6 +536,7 @@ def test_freeze_inserts_a_cell_below_holding_bench_code(lab):
 COPY_CELL = """\
 from pathlib import Path
 
+bench.flush()  # the noise model, fitted in the background, on screen first
 _ = Path("code.py").write_text(bench.code())"""
 
 
@@ -543,6 +545,9 @@ def test_the_copy_button_puts_the_frozen_code_on_the_clipboard(lab):
     lab.run_all()
     code = (lab.server.root / lab.folder / "code.py").read_text(encoding="utf-8")
     lab.page.evaluate("navigator.clipboard.writeText('nothing copied yet')")
+    # the noise model follows the other views in the background; code.py was written once it
+    # was on screen (bench.flush() in the cell), so freeze once it is on screen here too
+    lab.wait_for(".sb-view-noise .sb-term-table", timeout=120_000)
 
     with lab.timed("freeze and copy"):
         lab.wait_for(".sb-freeze-button").click()
