@@ -304,7 +304,9 @@ class Controller:
                     return
                 t0 = time.perf_counter()
                 expected = job.expected_seconds()
-            if expected > BACKGROUND_SECONDS:
+            # with ``sync`` (the first estimate) only the slow part of a split goes to the
+            # worker: the main analysis is on screen when the constructor returns
+            if expected > BACKGROUND_SECONDS and (quick is not None or not sync):
                 self._expected = expected
                 self._started = t0
                 self._show_busy(job, 0.0)

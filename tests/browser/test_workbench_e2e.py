@@ -504,9 +504,9 @@ def test_an_invalid_setting_shows_its_message_and_the_last_plot_stays(lab):
 FREEZE_CELL = """\
 from pathlib import Path
 
+bench.flush()  # the noise model, fitted in the background, on screen first
 frozen = bench.freeze()
 _ = Path("frozen.py").write_text(frozen)
-bench.flush()  # the noise model, fitted in the background, on screen first
 _ = Path("code.py").write_text(bench.code())"""
 
 

@@ -198,3 +198,20 @@ def test_a_workbench_built_in_a_kernel_shows_the_quick_views_before_the_noise_mo
     asyncio.run(main())
     assert seen["psd"] and seen["noise"] is None and seen["busy"]
     assert seen["after"] is not None and seen["after"].model is not None
+
+
+def test_a_workbench_built_in_a_kernel_has_its_main_estimate_even_when_nothing_is_quick(two_channels, monkeypatch):
+    """When no quick part can be split off (every analysis slow on this machine), the first
+    estimate is computed before the constructor returns, as before staging."""
+    from specbench.widgets import _controller
+
+    monkeypatch.setattr(_controller, "BACKGROUND_SECONDS", 1e-6)  # every analysis counts as slow
+    seen = {}
+
+    async def main():
+        bench = sb.Workbench(two_channels)
+        seen["psd"], seen["busy"] = bench.spectrum, bench.busy
+        seen["noise"] = bench.result("noise")
+
+    asyncio.run(main())
+    assert seen["psd"] is not None and not seen["busy"] and seen["noise"] is not None
