@@ -33,14 +33,14 @@ def work_dtype(xs) -> np.dtype:
     return np.dtype(np.float32 if small else np.float64)
 
 
-def _linear_basis(n: int, dtype: np.dtype) -> Any:
+def _linear_detrend(n: int, dtype: np.dtype) -> Any:
     """The least-squares line removal of segments of ``n`` samples (the Welch engine's)."""
     from ._engine import _LinearDetrend
 
     return _LinearDetrend.cached(n, np.dtype(dtype))
 
 
-def _cross_block(span, count: int, local, w: np.ndarray, step: int, nfft: int, detrend: str, q, work,
+def _cross_block(span, count: int, local, w: np.ndarray, step: int, nfft: int, detrend: str, lin, work,
                  per_block: int) -> np.ndarray:
     """Kernel: the upper-triangle cross periodograms summed over one block of segments."""
     nperseg = w.size
@@ -56,8 +56,8 @@ def _cross_block(span, count: int, local, w: np.ndarray, step: int, nfft: int, d
             mu = blk.mean(axis=-1, keepdims=True, dtype=np.float64)
             np.subtract(blk, mu, out=out, casting="unsafe")
             np.multiply(out, w, out=out)
-        elif q is not None:  # einsum's own loops, not BLAS: 2.7x faster here, and no BLAS rounding
-            q(blk, out)
+        elif lin is not None:  # einsum's own loops, not BLAS: 2.7x faster here, and no BLAS rounding
+            lin(blk, out)
             np.multiply(out, w, out=out)
         else:
             np.multiply(blk, w, out=out, casting="unsafe")
@@ -104,7 +104,7 @@ def cross_segment_products(
     nseg = n_all if index is None else int(index.size)
     work = work_dtype(xs)
     w = window.astype(work, copy=False)
-    q = _linear_basis(nperseg, work) if detrend == "linear" else None
+    lin = _linear_detrend(nperseg, work) if detrend == "linear" else None
     nfreq = nfft // 2 + 1
     per_block = block_segments(nperseg)
     iu = np.triu_indices(c)
@@ -112,7 +112,7 @@ def cross_segment_products(
     total = np.zeros((iu[0].size, nfreq), dtype=np.complex128)
     # blocks read through the engines' block interface: NumPy views on the engine threads,
     # or dask tasks on the active scheduler, summed in block order either way
-    for part in map_spans(_cross_block, xs, spans, calls, (w, step, nfft, detrend, q, work, per_block)):
+    for part in map_spans(_cross_block, xs, spans, calls, (w, step, nfft, detrend, lin, work, per_block)):
         total += part
     out = np.empty((c, c, nfreq), dtype=np.complex128)
     out[iu[0], iu[1]] = total

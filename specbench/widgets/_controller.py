@@ -289,8 +289,9 @@ class Controller:
             return
         background = self.scheduler.background_allowed() if not sync else stage and running_loop() is not None
         if background:
-            expected = job.expected_seconds()
-            quick = job.split(BACKGROUND_SECONDS) if expected > BACKGROUND_SECONDS else None
+            costs = job.costs()  # the cost model once per update: it prices every analysis
+            expected = sum(costs.values())
+            quick = job.split(BACKGROUND_SECONDS, costs) if expected > BACKGROUND_SECONDS else None
             if quick is not None:
                 # the quick analyses (the main one among them) take the change at once, a new
                 # data selection included; the slow ones follow in the background, their views
@@ -329,7 +330,6 @@ class Controller:
                                       + ("the last good estimate stays on screen."
                                          if self.session.any_result else "nothing is on screen yet.")]
                 self.session.notes += self.stale_notes(again=True)
-                self.draw(data=False)
                 self.show_status()
                 return
             self._finish(job, self._started)

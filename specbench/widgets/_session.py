@@ -231,16 +231,16 @@ class Job:
         """The cost model's expected time of the analyses that are not cached."""
         return sum(self.costs().values())
 
-    def split(self, limit: float) -> Job | None:
+    def split(self, limit: float, costs: dict[str, float] | None = None) -> Job | None:
         """The quick part of this job, to compute and commit first, or None.
 
         The quick part holds the main analysis and every analysis expected to take no longer
         than ``limit`` seconds, when together they are expected within ``limit`` and at least
         one slower analysis is left over.  Committed alone it takes the new data selection; the
         slower analyses left out keep their last result, marked stale (:meth:`Session.stale`),
-        until a job of their own replaces it.
+        until a job of their own replaces it.  ``costs``: :meth:`costs`, when already known.
         """
-        costs = self.costs()
+        costs = self.costs() if costs is None else costs
         main = self.session.main.name
         quick = [(slot, est) for slot, est in self.todo if slot.name == main or costs[slot.name] <= limit]
         if len(quick) == len(self.todo) or sum(costs[s.name] for s, _ in quick) > limit:
