@@ -509,9 +509,13 @@ class CrossSpectrum(Estimator):
 def _bin_correlation(window: np.ndarray, nfft: int, max_shift: int) -> np.ndarray:
     """|c_j|^2, j = 0..max_shift: correlation of cross-spectral errors j bins apart."""
     w2 = window.astype(np.float64) ** 2
-    t = np.arange(w2.size)
-    j = np.arange(max_shift + 1)[:, None]
-    c = (w2[None, :] * np.exp(-2j * np.pi * j * t[None, :] / nfft)).sum(axis=1) / w2.sum()
+    if w2.size <= nfft and max_shift <= nfft // 2:
+        # c_j = sum_t w2_t exp(-2 pi i j t / nfft) / sum w2: bins 0..max_shift of the transform
+        c = scipy.fft.rfft(w2, n=nfft)[: max_shift + 1] / w2.sum()
+    else:
+        t = np.arange(w2.size)
+        j = np.arange(max_shift + 1)[:, None]
+        c = (w2[None, :] * np.exp(-2j * np.pi * j * t[None, :] / nfft)).sum(axis=1) / w2.sum()
     return np.abs(c) ** 2
 
 

@@ -141,12 +141,20 @@ def _kernel_derivs(st: Structure, m: np.ndarray, delta: float) -> tuple:
     return k0, d1, d2
 
 
-def _phase_matrix(st: Structure, m: np.ndarray) -> np.ndarray:
-    key = ("phase", m.size)
+def _offset_transform(st: Structure, size: int) -> tuple[np.ndarray, np.ndarray]:
+    """``E[d, u] = exp(-2 pi i d u / nfft)`` for the bin offsets ``d = -(size-1) .. size-1`` and
+    the index ``(j - k) + size - 1`` of each pair of ``size`` consecutive bins (cached).
+
+    ``sum_u g_u exp(-2 pi i (m_j - m_k) u / nfft)`` depends on the pair only through the
+    offset ``m_j - m_k``: ``(E @ g)[index]`` is that matrix at ``2 size - 1`` transforms of
+    ``g`` instead of ``size**2``."""
+    key = ("offsets", size)
     if key not in st._cache:
         n = st.tapers.shape[-1]
-        d = m[:, None] - m[None, :]
-        st._cache[key] = np.exp(-2j * np.pi * np.multiply.outer(d, np.arange(n)) / (st.pad * n))
+        d = np.arange(-(size - 1), size)
+        e = np.exp(-2j * np.pi * np.multiply.outer(d, np.arange(n)) / (st.pad * n))
+        j = np.arange(size)
+        st._cache[key] = (e, j[:, None] - j[None, :] + size - 1)
     return st._cache[key]
 
 
@@ -173,9 +181,9 @@ def _covariance(st: Structure, spec: Any, m: np.ndarray, delta: float, t0: float
     z = float((np.abs(st.dtft(np.zeros(1))) ** 2).mean())
     kt = h.shape[0]
     if kt == 1 and st.seg_terms and spec.segments > 1:
-        ph = _phase_matrix(st, m)  # (M, M, n)
+        e, pair = _offset_transform(st, m.size)  # (2M - 1, n), (M, M)
         w = h[0]
-        total = np.real(np.conj(dk[0])[:, None] * dk[0][None, :] * (ph @ (w * w)))
+        total = np.real(np.conj(dk[0])[:, None] * dk[0][None, :] * (e @ (w * w))[pair])
         g0 = 1.0
         for shift, c, wgt in st.seg_terms:
             fwd = np.zeros(n)
@@ -184,7 +192,7 @@ def _covariance(st: Structure, spec: Any, m: np.ndarray, delta: float, t0: float
             back[shift:] = w[shift:] * w[: n - shift]
             for sgn, g in ((1, fwd), (-1, back)):
                 rot = np.exp(2j * np.pi * (delta - m)[:, None] * sgn * shift / nfft_e)
-                total += wgt * np.real(np.conj(dk[0])[:, None] * dk[0][None, :] * rot * (ph @ g))
+                total += wgt * np.real(np.conj(dk[0])[:, None] * dk[0][None, :] * rot * (e @ g)[pair])
             g0 += 2 * wgt * c * c
         # (1/n) sum_s (1 - |s|/n) ..., relative to the noise-only dof of the same average (g0 / n)
         cross = total / g0

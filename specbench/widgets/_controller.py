@@ -98,6 +98,9 @@ class Controller:
         self.slow = False  # the last update was long enough to say "computing…" while waiting
         self._expected = 0.0
         self._started = 0.0
+        #: per view, what it last drew: its result, its pins and the results overlaid on it
+        #: (a view whose inputs are the same objects is not redrawn)
+        self._drawn: dict[str, tuple] = {}
 
     # ------------------------------------------------------------------ what it marks
     def data_controls(self) -> dict[str, Any]:
@@ -395,16 +398,22 @@ class Controller:
             for w in holds:
                 stack.enter_context(w.hold_sync())
             overlays: dict[str, list] = {}
+            sources: dict[str, list] = {}  # the results each view's overlays come from
             for slot in s.slots.values():
                 if slot.name in current:
                     for target, items in slot.analysis.overlays(slot.shown).items():
                         overlays.setdefault(target, []).extend(items)
+                        sources.setdefault(target, []).append(slot.shown)
             pins = list(self._pins())
             for name, host in self.hosts.items():
                 pinned = [(p.shown.get(name), p.color, p.line_style) for p in pins]
-                if hasattr(host, "set_overlays"):
-                    host.set_overlays(overlays.get(name, []))
-                host.show(shown.get(name), pinned)
+                drawn = (shown.get(name), tuple(pinned), tuple(sources.get(name, ())))
+                if not _same(drawn, self._drawn.get(name)):
+                    self._drawn.pop(name, None)
+                    if hasattr(host, "set_overlays"):
+                        host.set_overlays(overlays.get(name, []))
+                    host.show(shown.get(name), pinned)
+                    self._drawn[name] = drawn
                 slot = s.slots[name]
                 set_stale(host, describe(slot.sel) if s.stale(slot) else None)
             merits = []
@@ -432,3 +441,13 @@ class Controller:
     def show_status(self) -> None:
         self.binding.mark(self.data_controls())
         self.statusline.show(self.status(), bool(self.session.errors))
+
+
+def _same(a: Any, b: Any) -> bool:
+    """The same inputs of a view: results compared by identity (a new estimate is a new
+    object), colours and line styles by value."""
+    if isinstance(a, tuple) and isinstance(b, tuple):
+        return len(a) == len(b) and all(_same(x, y) for x, y in zip(a, b))
+    if isinstance(a, (str, int, float)) or a is None:
+        return type(a) is type(b) and a == b
+    return a is b
