@@ -389,7 +389,8 @@ def map_spans(kernel: Callable, x: Any, spans: Sequence[tuple[int, int]], per_sp
             def one(i):
                 (a, b), (c, d) = spans[i], spans_y[i]
                 return kernel(_take(x, a, b), _take(y, c, d), *per[i], *args)
-        if threads if threads is not None else report_blocks:
+        use_threads = report_blocks if threads is None else threads
+        if use_threads:
             yield from ordered_map(one, range(len(spans)), report_blocks)
         else:  # short auxiliary passes: in the calling thread (hand-offs would cost more)
             tracker = _TRACKER.get()
