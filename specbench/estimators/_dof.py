@@ -144,8 +144,9 @@ def _interpolated_band_factors(dof: np.ndarray, a: float) -> tuple[np.ndarray, n
         return lo, hi
     u = np.log(d)
     lg = np.log(grid)
-    lo[good] = np.exp(CubicSpline(lg, np.log(exact_lo))(u))
-    hi[good] = np.exp(CubicSpline(lg, np.log(exact_hi))(u))
+    # one spline of both columns: one interval search per dof value, not two
+    both = np.exp(CubicSpline(lg, np.column_stack([np.log(exact_lo), np.log(exact_hi)]))(u))
+    lo[good], hi[good] = both[:, 0], both[:, 1]
     return lo, hi
 
 

@@ -527,6 +527,13 @@ def lab(request, chromium, lab_server):
             except Exception as error:  # the page may be gone; keep the real failure
                 print(f"no failure screenshot: {error}")
             print("browser console:\n" + "\n".join(helper.console[-40:]))
+            try:  # what each output area holds (a widget that never rendered leaves it blank)
+                outputs = page.evaluate("""() => [...document.querySelectorAll('.jp-OutputArea-output')]
+                    .map(o => o.getAttribute('data-mime-type') + ' ' + o.innerHTML.length + ' chars: '
+                              + o.innerHTML.slice(0, 300))""")
+                print("output areas:\n" + "\n".join(outputs))
+            except Exception as error:
+                print(f"no output areas: {error}")
             print("server log:\n" + lab_server.log_tail())
         if os.environ.get("SB_CONSOLE_LOG"):  # every console message of every test, for diagnosis
             with open(os.environ["SB_CONSOLE_LOG"], "a") as log:
