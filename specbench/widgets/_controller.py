@@ -37,6 +37,10 @@ from ._status import guarded, status_of
 
 _log = logging.getLogger("specbench.widgets")
 
+#: an update from the front end expected longer than this draws the main view first (the
+#: others follow at once): the view a control belongs to answers without waiting for the rest
+FIRST_VIEW_SECONDS = 0.1
+
 
 def set_stale(host: Any, what: str | None) -> None:
     """Mark ``host``'s view as showing an earlier data selection (``what`` describes it), or not."""
@@ -292,25 +296,32 @@ class Controller:
             return
         background = self.scheduler.background_allowed() if not sync else stage and running_loop() is not None
         if background:
-            costs = job.costs()  # the cost model once per update: it prices every analysis
+            costs = job.costs()  # the cost model once per stage: it prices every analysis
             expected = sum(costs.values())
-            quick = job.split(BACKGROUND_SECONDS, costs) if expected > BACKGROUND_SECONDS else None
-            if quick is not None:
-                # the quick analyses (the main one among them) take the change at once, a new
-                # data selection included; the slow ones follow in the background, their views
-                # marked as showing the previous selection until then
+            staged = False
+            for _ in range(3):  # at most: the main view, the other quick ones, the slow rest
+                quick = job.split(BACKGROUND_SECONDS, costs) if expected > BACKGROUND_SECONDS else None
+                if expected > FIRST_VIEW_SECONDS:
+                    quick = (quick or job).first(FIRST_VIEW_SECONDS, BACKGROUND_SECONDS, costs) or quick
+                if quick is None:
+                    break
+                # the quick analyses (the main one first) take the change at once, a new data
+                # selection included; the others follow (in the background when slow, their
+                # views marked as showing the previous selection until then)
                 quick.execute()
                 self._finish(quick, t0)
+                staged = True
                 if quick.sel != self.session.sel:  # the new selection was refused: nothing follows
                     return
                 job = self.session.plan(changed)
                 if job is None:
                     return
                 t0 = time.perf_counter()
-                expected = job.expected_seconds()
+                costs = job.costs()
+                expected = sum(costs.values())
             # with ``sync`` (the first estimate) only the slow part of a split goes to the
             # worker: the main analysis is on screen when the constructor returns
-            if expected > BACKGROUND_SECONDS and (quick is not None or not sync):
+            if expected > BACKGROUND_SECONDS and (staged or not sync):
                 self._expected = expected
                 self._started = t0
                 self._show_busy(job, 0.0)

@@ -243,7 +243,34 @@ class Job:
         costs = self.costs() if costs is None else costs
         main = self.session.main.name
         quick = [(slot, est) for slot, est in self.todo if slot.name == main or costs[slot.name] <= limit]
-        if len(quick) == len(self.todo) or sum(costs[s.name] for s, _ in quick) > limit:
+        if not quick or len(quick) == len(self.todo) or sum(costs[s.name] for s, _ in quick) > limit:
+            return None
+        return Job(self.session, self.sel, self.signal, quick, self.changed)
+
+    def first(self, limit: float, cap: float, costs: dict[str, float] | None = None) -> Job | None:
+        """The main analysis with the others that fit beside it in ``limit`` seconds, to draw
+        first, or None.
+
+        For an update too long to feel immediate (a long record: every view recomputing after
+        a change of the data selection or of a shared field such as the detrend): the view
+        of the main analysis draws as soon as it is computed and the others follow.  None
+        when the main analysis is not in this job, is expected above ``cap`` (it would block
+        the event loop: the job goes to the worker whole), or nothing would be left over.
+        Committed, it takes the new data selection as :meth:`split` does.
+        """
+        costs = self.costs() if costs is None else costs
+        main = self.session.main.name
+        if main not in costs or costs[main] > cap:
+            return None
+        budget = limit - costs[main]
+        quick = []
+        for slot, est in self.todo:
+            if slot.name == main:
+                quick.append((slot, est))
+            elif costs[slot.name] <= budget:
+                quick.append((slot, est))
+                budget -= costs[slot.name]
+        if len(quick) == len(self.todo):
             return None
         return Job(self.session, self.sel, self.signal, quick, self.changed)
 

@@ -4,11 +4,12 @@ Drives the controls of a Workbench as a user's changes arrive from the front end
 running asyncio event loop, so each change is scheduled as a front-end event (after an idle
 spell it starts when the handler returns; one sooner than ``COALESCE_SECONDS`` after the last
 update is coalesced) and a long one goes to the worker thread, as in a kernel.  For each
-change it records three times: from the control's new value to the marks holding the new estimate ("on screen": the
-main analysis and every quick one committed), the same from the start of the update (any
-scheduling delay left out: "compute + draw"), and to the last view done ("all views": the
-slow analyses that follow in the background, e.g. the noise model re-fitted on a new data
-selection).  The workbench's result cache is emptied before every change, so each change
+change it records three times: from the control's new value to the first commit and draw
+("on screen": the view the change belongs to; an update expected above FIRST_VIEW_SECONDS
+draws the main analysis first, the others right after), the same from the start of the
+update (any scheduling delay left out: "compute + draw"), and to the last view done ("all
+views": the other quick views, then the slow analyses that follow in the background, e.g.
+the noise model re-fitted on a new data selection).  The workbench's result cache is emptied before every change, so each change
 computes afresh (a confidence change still takes the band-only path: that is no cache).
 Every control is changed in turn (the PSD fields, the autocorrelation fields, the data strip
 and the method).  The record has two channels (so that the channel control changes something).

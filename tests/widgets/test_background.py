@@ -215,3 +215,44 @@ def test_a_workbench_built_in_a_kernel_has_its_main_estimate_even_when_nothing_i
 
     asyncio.run(main())
     assert seen["psd"] is not None and not seen["busy"] and seen["noise"] is not None
+
+
+def test_a_long_update_draws_the_main_view_first_and_the_others_follow(two_channels, monkeypatch):
+    """An update expected above FIRST_VIEW_SECONDS commits (and draws) the PSD alone first,
+    then the other views in the same event-loop turn: the browser sees the PSD at once; code
+    running after the change sees every view updated.  A new data selection goes in with
+    the first commit; until the second, the other views say they show the earlier one."""
+    from specbench.widgets import _controller
+
+    bench = sb.Workbench(two_channels)
+    monkeypatch.setattr(_controller, "FIRST_VIEW_SECONDS", 1e-9)  # every update counts as long
+    monkeypatch.setattr(_controller, "BACKGROUND_SECONDS", 1e9)  # and none goes to the worker
+    ctl, s = bench._ctl, bench._session
+    commits = []
+    finish = ctl._finish
+
+    def recording(job, t0):
+        finish(job, t0)
+        commits.append(([slot.name for slot, _ in job.todo], s.stale(s.slots["acf"]), bench.channel))
+
+    ctl._finish = recording
+
+    async def main():
+        bench.controls["detrend"].value = "linear"  # shared by the PSD, the ACF and the cross view
+        await asyncio.sleep(0.1)
+        seen["detrend"] = list(commits)
+        commits.clear()
+        bench.controls["channel"].value = "b"
+        await asyncio.sleep(0.1)
+        seen["channel"] = list(commits)
+
+    seen = {}
+    asyncio.run(main())
+    first, *rest = seen["detrend"]
+    assert first[0] == ["psd"] and rest and all("psd" not in names for names, _, _ in rest)
+    assert "acf" in sum((names for names, _, _ in rest), [])
+    assert bench.correlation.estimator.detrend == "linear" and bench.spectrum.estimator.detrend == "linear"
+    first, *rest = seen["channel"]
+    assert first == (["psd"], True, "b")  # the new selection with the PSD; the ACF still of 'a'
+    assert rest and rest[-1][1] is False
+    assert bench.correlation.channels == ("b",) and not any(s.stale(slot) for slot in s.slots.values())
