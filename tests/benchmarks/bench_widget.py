@@ -9,8 +9,9 @@ change it records three times: from the control's new value to the first commit 
 draws the main analysis first, the others right after), the same from the start of the
 update (any scheduling delay left out: "compute + draw"), and to the last view done ("all
 views": the other quick views, then the slow analyses that follow in the background, e.g.
-the noise model re-fitted on a new data selection).  The workbench's result cache is emptied before every change, so each change
-computes afresh (a confidence change still takes the band-only path: that is no cache).
+the noise model re-fitted on a new data selection).  The workbench's result cache is
+emptied before every change, so each change computes afresh (a confidence change still
+takes the band-only path: that is no cache).
 Every control is changed in turn (the PSD fields, the autocorrelation fields, the data strip
 and the method).  The record has two channels (so that the channel control changes something).
 Two plans (``--plan``): each control away from its default and back, one at a time (the cost
