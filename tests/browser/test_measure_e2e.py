@@ -109,7 +109,10 @@ def test_band_table_tones_and_advise(lab):
     adv.locator(".sb-advise-band input").press("Enter")
     adv.locator(".sb-advise-run").click()
     adv.locator(".sb-advise-apply").first.wait_for()
-    assert adv.locator(".sb-advise-figure").count() == 1  # the trade-off chart
+    # the trade-off chart: a bqplot figure, whose view may render after the buttons (it did,
+    # once, on a loaded CI machine)
+    adv.locator(".sb-advise-figure").first.wait_for()
+    assert adv.locator(".sb-advise-figure").count() == 1
     chosen = adv.locator(".sb-advise-text code").first.inner_text()
     lab.screenshot("4-light-advise", show=".sb-advise")
     lab.screenshot("4b-light-advise-chart", show=".sb-advise-legend")
